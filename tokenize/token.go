@@ -1,0 +1,14 @@
+package tokenize
+
+// Token is one element of an encoded stream. Every token knows when it happens and,
+// where it has one, which pitch it carries; the relpos stage relies on both.
+type Token struct {
+	ID    int32 // vocabulary id
+	Time  int32 // the stream's time unit: ms (performance) or grid steps (beat-grid)
+	MS    int32 // milliseconds from the piece start, in both encodings
+	Pitch int16 // 0-127, or -1 for tokens without a pitch
+	Inst  int16 // -1 none; 0-127 General MIDI program; InstDrums for drums
+}
+
+// InstDrums is the Inst value of drum tokens (General MIDI 1 channel 10).
+const InstDrums = 128
