@@ -54,6 +54,12 @@ type Piece struct {
 	Notes           []Note // sorted by (StartTick, Track, Channel, Pitch)
 	EndTick         int64  // last event tick of the piece
 	Warnings        Warnings
+
+	// Hashes, filled by Scan (hex SHA-256 prefixes): MusicalHash is the hash of the notes
+	// in beat time (independent of file layout, PPQ and track split); TransposedHash is
+	// also invariant under transposition and is the piece's content hash for splits.
+	MusicalHash    string
+	TransposedHash string
 }
 
 // Warnings counts the recoverable oddities met while reading a file, by kind.

@@ -12,3 +12,17 @@ type Token struct {
 
 // InstDrums is the Inst value of drum tokens (General MIDI 1 channel 10).
 const InstDrums = 128
+
+// Variant labels one augmentation of a piece.
+type Variant struct {
+	Transpose int     // semitones; drums untouched
+	Stretch   float64 // tempo stretch factor (performance encoding); 1 for none
+}
+
+// Window is one training window: at most max_len tokens cut from the stream of one
+// variant of one piece.
+type Window struct {
+	Index   int // index of the window within the piece and variant
+	Variant Variant
+	Tokens  []Token // valid only until the next window is produced
+}
