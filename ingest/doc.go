@@ -6,6 +6,9 @@
 // ticks and seconds (through the tempo map), finds exact, musical and transposed
 // duplicates, and reports every input file exactly once with its status.
 //
-//	recs, err := ingest.ParseFile(data, ingest.DefaultParseOptions())
-//	// recs[0].Notes[0] == Note{Pitch: 60, Velocity: 96, StartTick: 0, EndTick: 384, ...}
+//	pieces, err := ingest.Parse("song.mid", data, ingest.DefaultParseOptions())
+//	// pieces[0].Notes[0] == Note{Pitch: 48, Velocity: 96, StartTick: 0, EndTick: 384, Start: 0, End: 2, ...}
+//
+// The low-level Reader walks the events of a file without allocating, for callers
+// that need events rather than notes.
 package ingest

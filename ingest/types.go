@@ -80,6 +80,11 @@ const (
 	WarnOrphanOff  = "note-off without on" // ignored
 	WarnTrailing   = "bytes after last track"
 	WarnMissingEOT = "missing end of track"
+
+	WarnBadMeta          = "malformed tempo, meter or key event" // ignored
+	WarnRunningAfterMeta = "running status after meta or SysEx"  // accepted, though SMF 1.0 says those cancel it
+	WarnAfterEOT         = "bytes after end of track"            // skipped
+	WarnUnknownChunk     = "unknown chunk"                       // skipped, as SMF 1.0 asks
 )
 
 // Status of one input file.
@@ -141,3 +146,14 @@ func (e *ParseError) Error() string {
 }
 
 func (e *ParseError) Unwrap() error { return e.Err }
+
+// More sentinel errors of the SMF reader.
+var (
+	ErrBadData   = errors.New("status byte where a data byte belongs")
+	ErrBadStatus = errors.New("invalid status byte")
+)
+
+// errorf wraps a sentinel with detail: "sentinel: detail".
+func errorf(sentinel error, format string, args ...any) error {
+	return fmt.Errorf("%w: %s", sentinel, fmt.Sprintf(format, args...))
+}

@@ -1,0 +1,284 @@
+package ingest
+
+import (
+	"slices"
+	"sync"
+	"unicode/utf8"
+)
+
+// Parse reads a whole Standard MIDI File (or a RIFF RMID file) held in data and
+// returns its pieces: one for format 0 and 1, one per track for format 2, whose
+// tracks are independent patterns (SMF 1.0). A format-2 piece has Index set to its
+// track, and its tempo, meter and key maps come from that track only; for format 0
+// and 1 they come from every track. name is used in errors, which are *ParseError
+// values wrapping the Err* sentinels.
+//
+// Notes are sorted by (StartTick, Track, Channel, Pitch) and carry seconds through
+// the tempo map (see TimeMap); pairing, pedal and program rules are described in
+// notes.go's package-level comment and in the README of the parser, DEVELOPERS.md.
+// Parse never panics on bad input, and allocates a small multiple of len(data).
+func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
+	ps := parserPool.Get().(*parser)
+	defer ps.release()
+	ps.opts = opts
+	r := &ps.r
+	if err := r.Reset(name, data, opts.MaxEventsPerTrack); err != nil {
+		return nil, err
+	}
+	h := r.Header()
+	if h.Format == format2 {
+		pieces := make([]Piece, 0, min(h.Tracks, len(data)/chunkHeaderLen+1))
+		for r.NextTrack() {
+			ps.begin()
+			ps.readTrack()
+			if r.Err() != nil {
+				break
+			}
+			p := ps.finish(h, r.Track())
+			t := len(ps.names) - 1
+			p.TrackNames = ps.names[t : t+1 : t+1]
+			pieces = append(pieces, p)
+		}
+		if err := r.Err(); err != nil {
+			return nil, err
+		}
+		if len(pieces) > 0 {
+			ps.fileWarnings(pieces[0].Warnings)
+		}
+		return pieces, nil
+	}
+	ps.begin()
+	for r.NextTrack() {
+		ps.readTrack()
+	}
+	if err := r.Err(); err != nil {
+		return nil, err
+	}
+	p := ps.finish(h, 0)
+	p.TrackNames = ps.names
+	ps.fileWarnings(p.Warnings)
+	return []Piece{p}, nil
+}
+
+// parser holds the reusable state of one Parse call.
+type parser struct {
+	r      Reader
+	opts   ParseOptions
+	pair   pairer
+	bounds []int // start of each track's run in pair.buf, plus the end
+	progs  []progChange
+	names  []string
+	tempos []Tempo
+	meters []Meter
+	keys   []Key
+	end    int64
+	warn   Warnings
+
+	badMeta                         int
+	runningBase, slackBase, eotBase int
+}
+
+var parserPool = sync.Pool{New: func() any { return new(parser) }}
+
+// release returns the parser to the pool, dropping references into the input and
+// oversized buffers.
+func (ps *parser) release() {
+	if ps.r.err != nil {
+		// a track stopped half way: clear its pairing state
+		pr := &ps.pair
+		pr.open, pr.held, pr.pedal = [numChannels * numKeys]int32{}, [numChannels * numKeys]int32{}, [numChannels]bool{}
+		pr.nopen = 0
+		for ch := range pr.pending {
+			pr.pending[ch] = pr.pending[ch][:0]
+		}
+	}
+	ps.r = Reader{}
+	ps.names = nil
+	if cap(ps.pair.buf) > 1<<20 {
+		ps.pair.buf = nil
+	}
+	parserPool.Put(ps)
+}
+
+// begin starts a new piece.
+func (ps *parser) begin() {
+	ps.pair.buf = ps.pair.buf[:0]
+	ps.pair.usePed = ps.opts.Pedal
+	ps.pair.retrigger, ps.pair.orphanOff, ps.pair.openAtEnd = 0, 0, 0
+	ps.bounds = ps.bounds[:0]
+	ps.progs = ps.progs[:0]
+	ps.tempos, ps.meters, ps.keys = nil, nil, nil
+	ps.end = 0
+	ps.badMeta = 0
+	ps.runningBase, ps.slackBase, ps.eotBase = ps.r.RunningAfterMeta, ps.r.SlackTracks, ps.r.MissingEOT
+	if ps.names == nil {
+		ps.names = make([]string, 0, min(ps.r.hdr.Tracks, 64))
+	}
+}
+
+// readTrack walks the events of the current track.
+func (ps *parser) readTrack() {
+	r := &ps.r
+	pr := &ps.pair
+	pr.track = r.Track()
+	ps.bounds = append(ps.bounds, len(pr.buf))
+	name := ""
+	named := false
+	ev := r.Event()
+	for r.Next() {
+		if ev.Kind == KindChannel {
+			switch ev.Status & statusTypeMask {
+			case statusNoteOn:
+				if ev.Data2 != 0 {
+					pr.noteOn(ev.Status&statusChannelMask, ev.Data1, ev.Data2, ev.Tick)
+				} else {
+					pr.noteOff(ev.Status&statusChannelMask, ev.Data1, ev.Tick)
+				}
+			case statusNoteOff:
+				pr.noteOff(ev.Status&statusChannelMask, ev.Data1, ev.Tick)
+			case statusControl:
+				if ev.Data1 == ccSustain {
+					pr.sustain(ev.Status&statusChannelMask, ev.Data2, ev.Tick)
+				}
+			case statusProgram:
+				ps.progs = append(ps.progs, progChange{tick: ev.Tick, channel: ev.Status & statusChannelMask, program: ev.Data1})
+			}
+			continue
+		}
+		if ev.Kind != KindMeta {
+			continue
+		}
+		d := ev.Data
+		switch ev.Meta {
+		case metaTempo:
+			if len(d) != tempoLen {
+				ps.badMeta++
+				continue
+			}
+			us := uint32(d[0])<<16 | uint32(d[1])<<8 | uint32(d[2])
+			if us == 0 {
+				ps.badMeta++
+				continue
+			}
+			ps.tempos = append(ps.tempos, Tempo{Tick: ev.Tick, USPerQuarter: us})
+		case metaTimeSignature:
+			if len(d) < timeSigLen || d[0] == 0 || d[1] > maxDenPow {
+				ps.badMeta++
+				continue
+			}
+			ps.meters = append(ps.meters, Meter{Tick: ev.Tick, Num: d[0], Denom: 1 << d[1]})
+		case metaKeySignature:
+			if len(d) < keySigLen || int8(d[0]) < -7 || int8(d[0]) > 7 || d[1] > 1 {
+				ps.badMeta++
+				continue
+			}
+			ps.keys = append(ps.keys, Key{Tick: ev.Tick, Sharps: int8(d[0]), Minor: d[1] == 1})
+		case metaTrackName:
+			if !named {
+				name, named = text(d), true
+			}
+		}
+	}
+	if r.Err() != nil {
+		return
+	}
+	t := r.Tick()
+	pr.endTrack(t)
+	if t > ps.end {
+		ps.end = t
+	}
+	ps.names = append(ps.names, name)
+}
+
+// text decodes a meta text payload: UTF-8 when valid, else Latin-1 (common practice
+// for files from older sequencers).
+func text(d []byte) string {
+	if utf8.Valid(d) {
+		return string(d)
+	}
+	rs := make([]rune, len(d))
+	for i, b := range d {
+		rs[i] = rune(b)
+	}
+	return string(rs)
+}
+
+// finish builds the piece from what the tracks since begin produced.
+func (ps *parser) finish(h Header, index int) Piece {
+	pr := &ps.pair
+	ps.bounds = append(ps.bounds, len(pr.buf))
+	p := Piece{
+		Index:           index,
+		Format:          h.Format,
+		TicksPerQuarter: h.TicksPerQuarter,
+		SMPTEFPS:        h.FPS,
+		TicksPerFrame:   h.TicksPerFrame,
+		EndTick:         ps.end,
+		Warnings:        Warnings{},
+	}
+	if h.FPS > 0 {
+		// the quarter-note resolution at the default 120 BPM, for beat-based consumers
+		p.TicksPerQuarter = max(1, int(h.FPS*float64(h.TicksPerFrame)*defaultUSPerQuarter/1e6+0.5))
+	}
+	// tracks are read in order, so a stable sort by tick keeps file order on ties
+	byTick := func(a, b int64) int {
+		switch {
+		case a < b:
+			return -1
+		case a > b:
+			return 1
+		}
+		return 0
+	}
+	if len(ps.tempos) > 0 {
+		slices.SortStableFunc(ps.tempos, func(a, b Tempo) int { return byTick(a.Tick, b.Tick) })
+		p.Tempos = ps.tempos
+	}
+	if len(ps.meters) > 0 {
+		slices.SortStableFunc(ps.meters, func(a, b Meter) int { return byTick(a.Tick, b.Tick) })
+		p.Meters = ps.meters
+	}
+	if len(ps.keys) > 0 {
+		slices.SortStableFunc(ps.keys, func(a, b Key) int { return byTick(a.Tick, b.Tick) })
+		p.Keys = ps.keys
+	}
+
+	for i := 0; i+1 < len(ps.bounds); i++ {
+		sortRun(pr.buf[ps.bounds[i]:ps.bounds[i+1]])
+	}
+	notes := make([]Note, len(pr.buf))
+	mergeRuns(notes, pr.buf, ps.bounds)
+	if len(ps.progs) > 0 {
+		slices.SortStableFunc(ps.progs, func(a, b progChange) int { return byTick(a.tick, b.tick) })
+		assignPrograms(notes, ps.progs)
+	}
+	var tm TimeMap
+	tm.build(&p)
+	tm.fillSeconds(notes)
+	zero := 0
+	for i := range notes {
+		if notes[i].EndTick == notes[i].StartTick {
+			zero++
+		}
+	}
+	p.Notes = notes
+
+	w := p.Warnings
+	w.Add(WarnRetrigger, pr.retrigger)
+	w.Add(WarnOrphanOff, pr.orphanOff)
+	w.Add(WarnOpenAtEnd, pr.openAtEnd)
+	w.Add(WarnZeroLength, zero)
+	w.Add(WarnBadMeta, ps.badMeta)
+	w.Add(WarnRunningAfterMeta, ps.r.RunningAfterMeta-ps.runningBase)
+	w.Add(WarnAfterEOT, ps.r.SlackTracks-ps.slackBase)
+	w.Add(WarnMissingEOT, ps.r.MissingEOT-ps.eotBase)
+	return p
+}
+
+// fileWarnings adds the warnings that belong to the file rather than a track.
+func (ps *parser) fileWarnings(w Warnings) {
+	if ps.r.TrailingBytes() > 0 {
+		w.Add(WarnTrailing, 1)
+	}
+	w.Add(WarnUnknownChunk, ps.r.SkippedChunks)
+}
