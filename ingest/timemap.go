@@ -16,7 +16,8 @@ import (
 type TimeMap struct {
 	ticks []int64   // tick where each segment starts; ticks[0] == 0
 	secs  []float64 // seconds at ticks[i]
-	rate  []float64 // seconds per tick within segment i
+	num   []float64 // seconds per tick within segment i is num[i]/den[i]: kept apart so
+	den   []float64 // that dt*num/den is one correctly rounded division
 }
 
 // TimeMap builds the tick/second map of the piece.
@@ -27,36 +28,46 @@ func (p *Piece) TimeMap() *TimeMap {
 }
 
 func (m *TimeMap) build(p *Piece) {
-	m.ticks, m.secs, m.rate = m.ticks[:0], m.secs[:0], m.rate[:0]
+	m.ticks, m.secs, m.num, m.den = m.ticks[:0], m.secs[:0], m.num[:0], m.den[:0]
 	if p.SMPTEFPS > 0 && p.TicksPerFrame > 0 {
+		num, den := 1.0, p.SMPTEFPS*float64(p.TicksPerFrame)
+		if p.SMPTEFPS == smpteDropFPS {
+			num, den = 1001, 30000*float64(p.TicksPerFrame)
+		}
 		m.ticks = append(m.ticks, 0)
 		m.secs = append(m.secs, 0)
-		m.rate = append(m.rate, 1/(p.SMPTEFPS*float64(p.TicksPerFrame)))
+		m.num = append(m.num, num)
+		m.den = append(m.den, den)
 		return
 	}
 	tpq := float64(p.TicksPerQuarter)
 	if tpq <= 0 {
 		tpq = 1
 	}
-	perUS := 1 / (1e6 * tpq)
+	den := 1e6 * tpq
 	m.ticks = append(m.ticks, 0)
 	m.secs = append(m.secs, 0)
-	m.rate = append(m.rate, defaultUSPerQuarter*perUS)
+	m.num = append(m.num, defaultUSPerQuarter)
+	m.den = append(m.den, den)
 	for _, t := range p.Tempos {
 		if t.USPerQuarter == 0 {
 			continue
 		}
 		last := len(m.ticks) - 1
-		r := float64(t.USPerQuarter) * perUS
 		if t.Tick <= m.ticks[last] {
-			m.rate[last] = r // same tick (or out of order, which Parse never produces): the later one rules
+			m.num[last] = float64(t.USPerQuarter) // same tick (or out of order, which Parse never produces): the later one rules
 			continue
 		}
-		s := m.secs[last] + float64(t.Tick-m.ticks[last])*m.rate[last]
 		m.ticks = append(m.ticks, t.Tick)
-		m.secs = append(m.secs, s)
-		m.rate = append(m.rate, r)
+		m.secs = append(m.secs, m.at(last, t.Tick))
+		m.num = append(m.num, float64(t.USPerQuarter))
+		m.den = append(m.den, den)
 	}
+}
+
+// at returns the seconds of tick within segment i.
+func (m *TimeMap) at(i int, tick int64) float64 {
+	return m.secs[i] + float64(tick-m.ticks[i])*m.num[i]/m.den[i]
 }
 
 // segment returns the index of the segment holding tick.
@@ -77,8 +88,7 @@ func (m *TimeMap) segment(tick int64) int {
 
 // Seconds returns the time of tick in seconds from the start of the piece.
 func (m *TimeMap) Seconds(tick int64) float64 {
-	i := m.segment(tick)
-	return m.secs[i] + float64(tick-m.ticks[i])*m.rate[i]
+	return m.at(m.segment(tick), tick)
 }
 
 // Tick returns the tick at the given time, rounded to the nearest tick (seconds
@@ -91,7 +101,7 @@ func (m *TimeMap) Tick(seconds float64) int64 {
 	if i < 0 {
 		i = 0
 	}
-	t := float64(m.ticks[i]) + math.Round((seconds-m.secs[i])/m.rate[i])
+	t := float64(m.ticks[i]) + math.Round((seconds-m.secs[i])*m.den[i]/m.num[i])
 	if t > math.MaxInt64/2 {
 		return math.MaxInt64 / 2
 	}
@@ -104,8 +114,8 @@ func (p *Piece) Seconds(tick int64) float64 {
 	var m TimeMap
 	var t [1]int64
 	var s [1]float64
-	var r [1]float64
-	m.ticks, m.secs, m.rate = t[:0], s[:0], r[:0]
+	var n, d [1]float64
+	m.ticks, m.secs, m.num, m.den = t[:0], s[:0], n[:0], d[:0]
 	m.build(p)
 	return m.Seconds(tick)
 }
@@ -146,7 +156,7 @@ func (m *TimeMap) fillSeconds(notes []Note) {
 		for seg+1 < len(m.ticks) && m.ticks[seg+1] <= n.StartTick {
 			seg++
 		}
-		n.Start = m.secs[seg] + float64(n.StartTick-m.ticks[seg])*m.rate[seg]
+		n.Start = m.at(seg, n.StartTick)
 		e := seg
 		for e+1 < len(m.ticks) && m.ticks[e+1] <= n.EndTick {
 			e++
@@ -155,6 +165,6 @@ func (m *TimeMap) fillSeconds(notes []Note) {
 				break
 			}
 		}
-		n.End = m.secs[e] + float64(n.EndTick-m.ticks[e])*m.rate[e]
+		n.End = m.at(e, n.EndTick)
 	}
 }
