@@ -1,0 +1,147 @@
+package audit
+
+import (
+	"slices"
+
+	"github.com/relshard/relshard/tokenize"
+)
+
+// Ranges of the pair histograms.
+const (
+	maxPairDT = 60_000 // in the stream's time unit (ms, or grid steps)
+	maxPairDP = 127
+)
+
+// pairCounter counts the time and pitch offsets of every pair of distinct tokens
+// (i < j) inside a window, exactly and without enumerating the pairs one by one:
+//
+//   - Δt = t_j − t_i ≥ 0: the magnitude of the causal time offset key − query (query
+//     j, key i). Tokens are grouped by time first, so the cost is O(D²) in the D
+//     distinct times of a window, not O(L²) in its tokens.
+//   - Δp = p_i − p_j, key minus query with the later token as the query (the
+//     convention of Shaw et al. 2018), over pairs where both tokens carry a pitch and
+//     neither is a drum: a running count per pitch gives O(L·P) for P distinct
+//     pitches.
+type pairCounter struct {
+	times  []int32
+	counts []int64
+	sorted []int32
+	pitch  [128]int64
+	seen   []int16
+}
+
+// window adds the pairs of toks to dt and dp.
+func (pc *pairCounter) window(toks []tokenize.Token, dt, dp *Hist) {
+	pc.times, pc.counts = pc.times[:0], pc.counts[:0]
+	ordered := true
+	for i := range toks {
+		t := toks[i].Time
+		if n := len(pc.times); n > 0 && pc.times[n-1] == t {
+			pc.counts[n-1]++
+			continue
+		} else if n > 0 && t < pc.times[n-1] {
+			ordered = false
+			break
+		}
+		pc.times = append(pc.times, t)
+		pc.counts = append(pc.counts, 1)
+	}
+	if !ordered {
+		// The encoder promises non-decreasing times; count correctly anyway.
+		pc.sorted = pc.sorted[:0]
+		for i := range toks {
+			pc.sorted = append(pc.sorted, toks[i].Time)
+		}
+		slices.Sort(pc.sorted)
+		pc.times, pc.counts = pc.times[:0], pc.counts[:0]
+		for _, t := range pc.sorted {
+			if n := len(pc.times); n > 0 && pc.times[n-1] == t {
+				pc.counts[n-1]++
+				continue
+			}
+			pc.times = append(pc.times, t)
+			pc.counts = append(pc.counts, 1)
+		}
+	}
+	addTimePairs(pc.times, pc.counts, dt)
+
+	for i := range toks {
+		p := toks[i].Pitch
+		if p < 0 || p > 127 || toks[i].Inst == tokenize.InstDrums {
+			continue
+		}
+		for _, q := range pc.seen {
+			dp.AddN(int64(q)-int64(p), pc.pitch[q])
+		}
+		if pc.pitch[p] == 0 {
+			pc.seen = append(pc.seen, p)
+		}
+		pc.pitch[p]++
+	}
+	for _, q := range pc.seen {
+		pc.pitch[q] = 0
+	}
+	pc.seen = pc.seen[:0]
+}
+
+// addTimePairs counts, for distinct sorted times with multiplicities, every pair of
+// tokens by the difference of their times.
+func addTimePairs(times []int32, counts []int64, h *Hist) {
+	var over int64
+	var n int64
+	var sum int64
+	maxD := int64(-1)
+	cs := h.Counts
+	hi := int64(len(cs)) - 1 + h.Lo
+	for k, tk := range times {
+		c := counts[k]
+		if c > 1 {
+			same := c * (c - 1) / 2
+			h.AddN(0, same)
+		}
+		for l := k + 1; l < len(times); l++ {
+			d := int64(times[l]) - int64(tk)
+			w := c * counts[l]
+			if d > hi {
+				over += w
+			} else {
+				cs[d-h.Lo] += w
+			}
+			n += w
+			sum += d * w
+			maxD = max(maxD, d)
+		}
+	}
+	if n == 0 {
+		return
+	}
+	// Fold the bulk counts into the bookkeeping in one step; every d here is > 0 ≥ Lo.
+	h.Over += over
+	h.N += n
+	h.Sum += sum
+	h.Max = max(h.Max, maxD)
+	if len(times) > 1 {
+		minD := int64(times[1]) - int64(times[0])
+		for k := 2; k < len(times); k++ {
+			minD = min(minD, int64(times[k])-int64(times[k-1]))
+		}
+		h.Min = min(h.Min, minD)
+	}
+}
+
+// naivePairs is the reference: every pair (i < j) one by one.
+func naivePairs(toks []tokenize.Token, dt, dp *Hist) {
+	for j := range toks {
+		for i := 0; i < j; i++ {
+			d := int64(toks[j].Time) - int64(toks[i].Time)
+			if d < 0 {
+				d = -d
+			}
+			dt.Add(d)
+			pi, pj := toks[i].Pitch, toks[j].Pitch
+			if pi >= 0 && pi <= 127 && pj >= 0 && pj <= 127 && toks[i].Inst != tokenize.InstDrums && toks[j].Inst != tokenize.InstDrums {
+				dp.Add(int64(pi) - int64(pj))
+			}
+		}
+	}
+}
