@@ -25,4 +25,6 @@ type Window struct {
 	Index   int // index of the window within the piece and variant
 	Variant Variant
 	Tokens  []Token // valid only until the next window is produced
+	Start   int     // index in the variant's stream of the first token the window covers
+	Prefix  int     // leading state tokens restated for this window (not from the stream at Start)
 }

@@ -1,0 +1,309 @@
+package tokenize
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+
+	"github.com/relshard/relshard/ingest"
+)
+
+// Stats counts what encoding one variant of a piece did to its notes.
+type Stats struct {
+	Notes        int // notes in the piece
+	Encoded      int // notes in the stream
+	DrumsDropped int // drum notes left out (drums: drop)
+	OutOfRange   int // notes transposed out of 0-127, left out
+	// Merged counts notes dropped because another note of the same key (and, in the
+	// grid, nothing else) starts at the same quantized time; the longest is kept
+	// (performance only: a key cannot sound twice in one event stream).
+	Merged int
+	// Retriggered counts performance notes cut short because a later note of the
+	// same key starts before they end (the earlier note ends at the later onset).
+	Retriggered int
+	Clipped     int // grid notes longer than max_duration_steps, clipped to it
+	Lengthened  int // grid notes shorter than one step, lengthened to one step
+	// MetersMoved counts grid meter changes that fall inside a bar; they take
+	// effect at the next bar line.
+	MetersMoved int
+	// MetersUnsupported counts meters with no grid token; 4/4 bars are used instead.
+	MetersUnsupported int
+	Tokens            int // tokens in the stream
+}
+
+// Errors of the encoder.
+var (
+	ErrTooLong     = errors.New("piece too long to encode")
+	ErrBadPiece    = errors.New("invalid piece")
+	ErrBadVariant  = errors.New("invalid variant")
+	errInternalBug = errors.New("internal error")
+)
+
+// Limits of the encoder, so a hostile file cannot make it run away.
+const (
+	// MaxStreamTokens caps one stream (about 24 hours of dense piano).
+	MaxStreamTokens = 1 << 22
+	// maxMS caps note times (about 24 days) so that ms fit in int32.
+	maxMS = math.MaxInt32 - 1_000_000
+)
+
+// Identity is the variant that leaves a piece as it is.
+var Identity = Variant{Transpose: 0, Stretch: 1}
+
+// String labels a variant: "t+2 s1.1", "t0 s1" for the identity.
+func (v Variant) String() string {
+	t := strconv.Itoa(v.Transpose)
+	if v.Transpose > 0 {
+		t = "+" + t
+	}
+	return "t" + t + " s" + strconv.FormatFloat(v.Stretch, 'g', -1, 64)
+}
+
+// Encoder encodes pieces with one config. It reuses internal buffers, so it is not
+// safe for concurrent use: make one per worker.
+type Encoder struct {
+	cfg      Config
+	vocab    *Vocab
+	variants []Variant
+	clock    clock
+
+	pnotes []pnote
+	events []pevent
+	gnotes []gnote
+	bars   []barInfo
+	stream []Token
+	window []Token
+}
+
+// NewEncoder checks cfg and builds its vocabulary.
+func NewEncoder(cfg Config) (*Encoder, error) {
+	v, err := NewVocab(cfg)
+	if err != nil {
+		return nil, err
+	}
+	e := &Encoder{cfg: cfg, vocab: v}
+	e.variants = append(e.variants, Identity)
+	stretch := cfg.Stretch
+	if len(stretch) == 0 {
+		stretch = []float64{1}
+	}
+	transpose := cfg.Transpose
+	if len(transpose) == 0 {
+		transpose = []int{0}
+	}
+	for _, t := range transpose {
+		for _, s := range stretch {
+			if vr := (Variant{Transpose: t, Stretch: s}); vr != Identity {
+				e.variants = append(e.variants, vr)
+			}
+		}
+	}
+	return e, nil
+}
+
+// Vocab is the encoder's vocabulary.
+func (e *Encoder) Vocab() *Vocab { return e.vocab }
+
+// Config is the encoder's config.
+func (e *Encoder) Config() Config { return e.cfg }
+
+// Variants lists the augmentation variants: the identity first, then every
+// transpose × stretch combination in config order.
+func (e *Encoder) Variants() []Variant { return append([]Variant(nil), e.variants...) }
+
+// TimeUnit is the unit of Token.Time: "ms" or "grid".
+func (e *Encoder) TimeUnit() string {
+	if e.cfg.Encoding == Grid {
+		return "grid"
+	}
+	return "ms"
+}
+
+// Encode appends the stream of variant v of p to dst and returns it. The stream
+// begins with the begin token and ends with the end token. Encode does no per-token
+// allocation beyond growing dst and its own reused buffers.
+func (e *Encoder) Encode(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
+	if p == nil {
+		return dst, Stats{}, fmt.Errorf("encode: %w: nil piece", ErrBadPiece)
+	}
+	if v.Transpose < -maxTranspose || v.Transpose > maxTranspose {
+		return dst, Stats{}, fmt.Errorf("encode: %w: transpose %d", ErrBadVariant, v.Transpose)
+	}
+	if !(v.Stretch >= 0.25 && v.Stretch <= 4) {
+		return dst, Stats{}, fmt.Errorf("encode: %w: stretch %v", ErrBadVariant, v.Stretch)
+	}
+	if e.cfg.Encoding == Grid {
+		if v.Stretch != 1 {
+			return dst, Stats{}, fmt.Errorf("encode: %w: stretch %v with the grid encoding", ErrBadVariant, v.Stretch)
+		}
+		return e.encodeGrid(p, v, dst)
+	}
+	return e.encodePerformance(p, v, dst)
+}
+
+// Windows encodes every variant of p and calls yield with each window, variants in
+// Variants order and windows in stream order. Window.Tokens is reused: copy it to
+// keep it. An error from yield stops the walk and is returned.
+//
+// A window holds at most max_len tokens. Windows after the first of a stream begin
+// with a short state prefix so that each decodes on its own: in the performance
+// encoding the current set-velocity; in the grid encoding the current bar, meter,
+// tempo, position and instrument. With the default stride (max_len) the stream
+// tokens of consecutive windows follow each other without gap or overlap; a smaller
+// stride overlaps them. Grid windows never split a note's pitch, duration and
+// velocity. A note whose note-on and note-off fall in different windows is cut:
+// decoded alone, the earlier window ends it at its last time and the later window
+// ignores the unmatched note-off. Windows shorter than min_len are dropped.
+func (e *Encoder) Windows(p *ingest.Piece, yield func(Window) error) error {
+	for _, v := range e.variants {
+		var err error
+		e.stream, _, err = e.Encode(p, v, e.stream[:0])
+		if err != nil {
+			return fmt.Errorf("variant %s: %w", v, err)
+		}
+		if err := e.cut(e.stream, v, yield); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// WindowsOf cuts an already encoded stream (of this encoder's config) into windows,
+// as Windows does for one variant.
+func (e *Encoder) WindowsOf(stream []Token, v Variant, yield func(Window) error) error {
+	return e.cut(stream, v, yield)
+}
+
+// cutState follows a stream up to a cut point to know the state a window needs.
+type cutState struct {
+	vel      Token // last set-velocity (performance); ID 0 if none
+	bar      Token // last bar token (grid)
+	meter    Token
+	tempo    Token
+	pos      Token // last position in the current bar; ID 0 if none yet
+	inst     Token // last inst token
+	prevTime int32 // time and ms after the last token
+	prevMS   int32
+}
+
+func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error) error {
+	n := len(s)
+	maxLen, stride, minLen := e.cfg.MaxLen, e.cfg.stride(), e.cfg.MinLen
+	grid := e.cfg.Encoding == Grid
+	var st cutState
+	at := 0 // the state covers s[:at]
+	start, idx := 0, 0
+	for start < n {
+		for ; at < start; at++ {
+			e.track(&st, s[at])
+		}
+		w := e.window[:0]
+		body := start
+		if start > 0 {
+			w, body = e.prefix(w, &st, s, start)
+		}
+		room := maxLen - len(w)
+		end := min(n, body+room)
+		if grid && end < n {
+			for end > body && !e.startable(s[end].ID) {
+				end--
+			}
+			if end == body {
+				return fmt.Errorf("cut: %w: no window boundary in %d tokens at token %d", errInternalBug, room, body)
+			}
+		}
+		w = append(w, s[body:end]...)
+		e.window = w
+		if len(w) >= minLen && len(w) > 0 {
+			if err := yield(Window{Index: idx, Variant: v, Tokens: w, Start: start, Prefix: len(w) - (end - body)}); err != nil {
+				return err
+			}
+			idx++
+		}
+		if end >= n {
+			break
+		}
+		next := min(start+stride, end)
+		if next <= start {
+			next = end
+		}
+		for grid && next < end && !e.startable(s[next].ID) {
+			next++
+		}
+		start = next
+	}
+	return nil
+}
+
+// startable reports whether a grid window may begin at a token of this id: not in
+// the middle of a note, not between a bar and its meter and tempo.
+func (e *Encoder) startable(id int32) bool {
+	switch e.vocab.entries[id].Kind {
+	case KindDuration, KindVelocity, KindMeter, KindTempo:
+		return false
+	}
+	return true
+}
+
+func (e *Encoder) track(st *cutState, t Token) {
+	st.prevTime, st.prevMS = t.Time, t.MS
+	switch e.vocab.entries[t.ID].Kind {
+	case KindVelocity:
+		st.vel = t
+	case KindBar:
+		st.bar = t
+		st.pos = Token{}
+	case KindMeter:
+		st.meter = t
+	case KindTempo:
+		st.tempo = t
+	case KindPosition:
+		st.pos = t
+	case KindInst:
+		st.inst = t
+	}
+}
+
+// prefix appends the state a window starting at s[start] needs and returns the index
+// of the first stream token the window takes.
+func (e *Encoder) prefix(w []Token, st *cutState, s []Token, start int) ([]Token, int) {
+	first := e.vocab.entries[s[start].ID].Kind
+	if e.cfg.Encoding == Performance {
+		if st.vel.ID != 0 && first != KindVelocity {
+			t := st.vel
+			t.Time, t.MS = st.prevTime, st.prevMS
+			w = append(w, t)
+		}
+		return w, start
+	}
+	if st.bar.ID == 0 {
+		return w, start // before the first bar: nothing to restate
+	}
+	body := start
+	bar := st.bar
+	if first == KindBar {
+		bar = s[start]
+		body = start + 1
+	}
+	w = append(w, bar)
+	if st.meter.ID != 0 {
+		t := st.meter
+		t.Time, t.MS = bar.Time, bar.MS
+		w = append(w, t)
+	}
+	if st.tempo.ID != 0 {
+		t := st.tempo
+		t.Time, t.MS = bar.Time, bar.MS
+		w = append(w, t)
+	}
+	if first != KindBar && first != KindPosition && st.pos.ID != 0 {
+		w = append(w, st.pos)
+	}
+	if first != KindInst && st.inst.ID != 0 {
+		t := st.inst
+		t.Time, t.MS = w[len(w)-1].Time, w[len(w)-1].MS
+		w = append(w, t)
+	}
+	return w, body
+}
