@@ -1,0 +1,148 @@
+package ingest
+
+import (
+	"cmp"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"hash"
+	"math"
+	"slices"
+)
+
+// Content hashes for duplicate detection.
+//
+// The musical hash covers the multiset of notes in beat time: each note's onset and
+// duration in quarter notes as exact reduced fractions of ticks over ticks per quarter
+// (so a file written at 96 PPQ and the same music at 480 PPQ agree), its pitch and its
+// drum flag. Track, channel, program, velocity and the tempo map are left out, so the same
+// notes split over other tracks or channels, re-voiced or re-tempoed, hash alike. SMPTE
+// files have no beat time; their onsets are fractions of seconds (ticks over frames per
+// second times ticks per frame) instead, so they match only other SMPTE files.
+//
+// The transposed hash is the musical hash with every non-drum pitch taken relative to the
+// lowest non-drum pitch of the piece, so the same piece shifted by any number of
+// semitones hashes alike; drum notes keep their keys (they name instruments, General
+// MIDI 1 percussion map).
+
+// hashVersion prefixes the hashed stream so that a change of encoding changes every hash.
+const hashVersion = "relshard notes v1"
+
+// noteKey is the part of a note that the content hashes cover.
+type noteKey struct {
+	start, dur int64
+	pitch      uint8
+	drum       bool
+}
+
+// pieceHasher computes content hashes, reusing its buffers between pieces.
+type pieceHasher struct {
+	keys             []noteKey
+	buf              []byte
+	musical, transpo hash.Hash
+}
+
+func newPieceHasher() *pieceHasher {
+	return &pieceHasher{musical: sha256.New(), transpo: sha256.New()}
+}
+
+// fileSHA256 returns the hex SHA-256 of a file's bytes.
+func fileSHA256(data []byte) string {
+	sum := sha256.Sum256(data)
+	return hex.EncodeToString(sum[:])
+}
+
+// hashLen is the number of SHA-256 bytes kept in a content hash (128 bits).
+const hashLen = 16
+
+// hashPiece fills p.MusicalHash and p.TransposedHash.
+func (h *pieceHasher) hashPiece(p *Piece) {
+	// Onsets are num*scale/den quarter notes (or seconds for SMPTE).
+	scale, den := int64(1), int64(p.TicksPerQuarter)
+	if p.SMPTEFPS > 0 {
+		scale, den = 100, int64(math.Round(p.SMPTEFPS*100))*int64(max(p.TicksPerFrame, 1))
+	}
+	if den <= 0 {
+		den = 1
+	}
+	h.keys = h.keys[:0]
+	minPitch := uint8(255)
+	for i := range p.Notes {
+		n := &p.Notes[i]
+		h.keys = append(h.keys, noteKey{start: n.StartTick, dur: n.EndTick - n.StartTick, pitch: n.Pitch, drum: n.Drum})
+		if !n.Drum && n.Pitch < minPitch {
+			minPitch = n.Pitch
+		}
+	}
+	// Within one piece every note has the same denominator, so ordering by ticks orders
+	// by beat time too; the order is thus the same at any PPQ and under transposition.
+	slices.SortFunc(h.keys, func(a, b noteKey) int {
+		if c := cmp.Compare(a.start, b.start); c != 0 {
+			return c
+		}
+		if a.drum != b.drum {
+			if a.drum {
+				return 1
+			}
+			return -1
+		}
+		if c := cmp.Compare(a.pitch, b.pitch); c != 0 {
+			return c
+		}
+		return cmp.Compare(a.dur, b.dur)
+	})
+	h.musical.Reset()
+	h.transpo.Reset()
+	h.buf = append(h.buf[:0], hashVersion...)
+	h.buf = binary.AppendUvarint(h.buf, uint64(len(h.keys)))
+	h.musical.Write(h.buf)
+	h.transpo.Write(h.buf)
+	for _, k := range h.keys {
+		h.buf = h.buf[:0]
+		h.buf = appendFraction(h.buf, k.start*scale, den)
+		h.buf = appendFraction(h.buf, k.dur*scale, den)
+		common := len(h.buf)
+		h.buf = append(h.buf, k.pitch, boolByte(k.drum))
+		h.musical.Write(h.buf)
+		rel := k.pitch
+		if !k.drum {
+			rel -= minPitch
+		}
+		h.buf = append(h.buf[:common], rel, boolByte(k.drum))
+		h.transpo.Write(h.buf)
+	}
+	var sum [sha256.Size]byte
+	p.MusicalHash = hex.EncodeToString(h.musical.Sum(sum[:0])[:hashLen])
+	p.TransposedHash = hex.EncodeToString(h.transpo.Sum(sum[:0])[:hashLen])
+}
+
+// appendFraction appends num/den reduced to lowest terms, as two varints.
+func appendFraction(b []byte, num, den int64) []byte {
+	g := gcd(abs64(num), den)
+	if g > 1 {
+		num, den = num/g, den/g
+	}
+	b = binary.AppendVarint(b, num)
+	return binary.AppendUvarint(b, uint64(den))
+}
+
+func gcd(a, b int64) int64 {
+	for b != 0 {
+		a, b = b, a%b
+	}
+	return a
+}
+
+func abs64(x int64) int64 {
+	if x < 0 {
+		return -x
+	}
+	return x
+}
+
+func boolByte(b bool) byte {
+	if b {
+		return 1
+	}
+	return 0
+}

@@ -1,0 +1,346 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"runtime"
+
+	"golang.org/x/sync/errgroup"
+)
+
+// Options control a scan.
+type Options struct {
+	Parse ParseOptions
+	// Workers is the number of files parsed at once; 0 means runtime.NumCPU().
+	Workers int
+	// MaxFileSize caps the MIDI bytes of one file (after gzip decompression); a larger
+	// file is skipped with ErrTooLarge, its size checked before it is read and never more
+	// than MaxFileSize+1 bytes read. 0 means 64 MiB.
+	MaxFileSize int64
+	// Strict makes Scan stop at the first file skipped for bad input (not for a filter
+	// rule or a non-MIDI archive entry) and return its error, after yielding its record.
+	Strict bool
+	Filter Filter
+	Limits Limits
+	// KeepDuplicates keeps later copies as ok, with their pieces, while still filling
+	// DuplicateOf and DuplicateKind.
+	KeepDuplicates bool
+}
+
+// DefaultMaxFileSize is the default per-file size cap.
+const DefaultMaxFileSize = 64 << 20
+
+// DefaultOptions returns the defaults: pedal on, all cores, 64 MiB per file, at least one
+// note per file, default archive limits.
+func DefaultOptions() Options {
+	return Options{Parse: DefaultParseOptions(), MaxFileSize: DefaultMaxFileSize,
+		Filter: Filter{MinNotes: 1}, Limits: DefaultLimits()}
+}
+
+// Scan reads every input file of the sources, in stable order (sources in the given
+// order, files sorted by path within each), parses them on a pool of workers, applies
+// the filter, finds duplicates, and calls yield once per input file in that order,
+// whatever the number of workers. Memory stays bounded: at most a few files per worker
+// are in flight, and tar streams buffer at most Limits.MaxBuffered bytes.
+//
+// Duplicates are found in that order: a file is an exact duplicate when an earlier kept
+// file has the same MIDI bytes, a musical duplicate when an earlier one has the same
+// notes in beat time, a transposed duplicate when they differ only by transposition (see
+// the hashes' doc). A format-2 file is a duplicate only when every piece with notes is
+// one (of any earlier file); its kind is then the coarsest kind among its pieces.
+//
+// Bad files are reported in their records and the scan goes on, unless Strict. Scan
+// returns an error when a source does not exist or is of an unknown kind (before
+// anything is read), when yield returns one, when ctx ends, or under Strict.
+func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Result) error) error {
+	opts = opts.withDefaults()
+	kinds := make([]sourceKind, len(sources))
+	for i, s := range sources {
+		k, err := s.kind()
+		if err != nil {
+			return err
+		}
+		kinds[i] = k
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	g, gctx := errgroup.WithContext(ctx)
+
+	type job struct {
+		seq int
+		e   *entry
+	}
+	type done struct {
+		seq int
+		r   *Result
+	}
+	// inFlight bounds the files between the producer and yield, and so the reorder buffer.
+	inFlight := make(chan struct{}, 4*opts.Workers)
+	jobs := make(chan job)
+	results := make(chan done, opts.Workers)
+
+	g.Go(func() error {
+		defer close(jobs)
+		seq := 0
+		emit := func(e *entry) error {
+			select {
+			case inFlight <- struct{}{}:
+			case <-gctx.Done():
+				if e.release != nil {
+					e.release()
+				}
+				return gctx.Err()
+			}
+			select {
+			case jobs <- job{seq, e}:
+				seq++
+				return nil
+			case <-gctx.Done():
+				if e.release != nil {
+					e.release()
+				}
+				return gctx.Err()
+			}
+		}
+		for i, s := range sources {
+			if err := enumerate(gctx, s, kinds[i], &opts, emit); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	workersDone := make(chan struct{})
+	var wg errgroup.Group
+	for range opts.Workers {
+		wg.Go(func() error {
+			h := newPieceHasher()
+			for j := range jobs {
+				r := processEntry(j.e, &opts, h)
+				select {
+				case results <- done{j.seq, r}:
+				case <-gctx.Done():
+					// Drain so the producer's sends end too.
+				}
+			}
+			return nil
+		})
+	}
+	go func() {
+		wg.Wait()
+		close(results)
+		close(workersDone)
+	}()
+
+	d := newDeduper(opts.KeepDuplicates)
+	pending := map[int]*Result{}
+	next := 0
+	var stopErr error
+	for dn := range results {
+		if stopErr != nil {
+			continue
+		}
+		pending[dn.seq] = dn.r
+		for {
+			r, ok := pending[next]
+			if !ok {
+				break
+			}
+			delete(pending, next)
+			next++
+			<-inFlight
+			d.check(r)
+			if err := yield(r); err != nil {
+				stopErr = err
+				cancel()
+				break
+			}
+			if opts.Strict && r.Record.Status == StatusSkipped && isBadInput(r.Err) {
+				stopErr = r.Err
+				cancel()
+				break
+			}
+		}
+	}
+	<-workersDone
+	gErr := g.Wait()
+	if stopErr != nil {
+		return stopErr
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	if gErr != nil {
+		return gErr
+	}
+	if len(pending) != 0 {
+		return fmt.Errorf("internal error: %d results left unordered at %d", len(pending), next)
+	}
+	return nil
+}
+
+// withDefaults fills the zero fields.
+func (o Options) withDefaults() Options {
+	if o.Workers <= 0 {
+		o.Workers = runtime.NumCPU()
+	}
+	if o.MaxFileSize <= 0 {
+		o.MaxFileSize = DefaultMaxFileSize
+	}
+	o.Limits = o.Limits.withDefaults()
+	return o
+}
+
+// processEntry reads, parses, filters and hashes one input file; every outcome is a result.
+func processEntry(e *entry, opts *Options, h *pieceHasher) *Result {
+	r := &Result{Record: FileRecord{Dataset: e.dataset, Source: e.source, Path: e.path}}
+	data, err := loadEntry(e, opts)
+	if err != nil {
+		return skip(r, err)
+	}
+	r.Record.Size = int64(len(data))
+	r.Record.SHA256 = fileSHA256(data)
+	pieces, err := Parse(e.path, data, opts.Parse)
+	if err != nil {
+		return skip(r, err)
+	}
+	if len(pieces) == 0 {
+		return skip(r, &ParseError{File: e.path, Track: -1, Offset: -1, Err: ErrNoTracks})
+	}
+	rec := &r.Record
+	rec.Pieces = len(pieces)
+	rec.Format = pieces[0].Format
+	rec.TicksPerQuarter = pieces[0].TicksPerQuarter
+	if pieces[0].SMPTEFPS > 0 {
+		rec.TicksPerQuarter = 0
+	}
+	for i := range pieces {
+		for k, n := range pieces[i].Warnings {
+			if rec.Warnings == nil {
+				rec.Warnings = Warnings{}
+			}
+			rec.Warnings.Add(k, n)
+		}
+	}
+	st, err := opts.Filter.apply(pieces)
+	rec.Notes, rec.Seconds = st.notes, st.seconds
+	if err != nil {
+		return skip(r, err)
+	}
+	for i := range pieces {
+		h.hashPiece(&pieces[i])
+	}
+	rec.Status = StatusOK
+	r.Pieces = pieces
+	return r
+}
+
+// loadEntry returns an entry's MIDI bytes: preloaded or read, then gunzipped for a .gz
+// name, within the size caps.
+func loadEntry(e *entry, opts *Options) ([]byte, error) {
+	if e.err != nil {
+		return nil, e.err
+	}
+	data := e.data
+	if e.load != nil {
+		var err error
+		data, err = e.load()
+		if e.release != nil {
+			e.release()
+		}
+		if err != nil {
+			return nil, err
+		}
+	}
+	if isGzipName(e.path) {
+		return gunzipCapped(data, opts.MaxFileSize)
+	}
+	if int64(len(data)) > opts.MaxFileSize {
+		return nil, fmt.Errorf("%d bytes, limit %s: %w", len(data), sizeString(opts.MaxFileSize), ErrTooLarge)
+	}
+	return data, nil
+}
+
+func skip(r *Result, err error) *Result {
+	r.Record.Status = StatusSkipped
+	r.Record.Reason = err.Error()
+	r.Err = err
+	return r
+}
+
+// deduper finds duplicates in delivery order: the first file holding a hash owns it.
+type deduper struct {
+	keep                     bool
+	exact, musical, transpos map[string]string // hash -> "dataset/path"
+}
+
+func newDeduper(keep bool) *deduper {
+	return &deduper{keep: keep, exact: map[string]string{}, musical: map[string]string{}, transpos: map[string]string{}}
+}
+
+// kindRank orders duplicate kinds from finest to coarsest.
+var kindRank = map[DuplicateKind]int{DupExact: 0, DupMusical: 1, DupTransposed: 2}
+
+func (d *deduper) check(r *Result) {
+	rec := &r.Record
+	if rec.Status != StatusOK {
+		return
+	}
+	key := rec.Key()
+	if first, ok := d.exact[rec.SHA256]; ok {
+		d.mark(r, first, DupExact)
+		return
+	}
+	d.exact[rec.SHA256] = key
+	var of string
+	var kind DuplicateKind
+	all, any := true, false
+	for i := range r.Pieces {
+		p := &r.Pieces[i]
+		if len(p.Notes) == 0 {
+			continue
+		}
+		any = true
+		k := DupMusical
+		first, ok := d.musical[p.MusicalHash]
+		if !ok {
+			k = DupTransposed
+			first, ok = d.transpos[p.TransposedHash]
+		}
+		if !ok {
+			all = false
+			continue
+		}
+		if of == "" {
+			of = first
+		}
+		if kind == "" || kindRank[k] > kindRank[kind] {
+			kind = k
+		}
+	}
+	for i := range r.Pieces {
+		p := &r.Pieces[i]
+		if len(p.Notes) == 0 {
+			continue
+		}
+		if _, ok := d.musical[p.MusicalHash]; !ok {
+			d.musical[p.MusicalHash] = key
+		}
+		if _, ok := d.transpos[p.TransposedHash]; !ok {
+			d.transpos[p.TransposedHash] = key
+		}
+	}
+	if any && all {
+		d.mark(r, of, kind)
+	}
+}
+
+func (d *deduper) mark(r *Result, of string, kind DuplicateKind) {
+	r.Record.DuplicateOf = of
+	r.Record.DuplicateKind = kind
+	if d.keep {
+		return
+	}
+	r.Record.Status = StatusDuplicate
+	r.Pieces = nil
+}
+

@@ -1,0 +1,344 @@
+package ingest
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+)
+
+// Source is one input of a scan: a folder (read recursively), a .zip, .tar, .tar.gz or
+// .tgz archive (entries read in place, never extracted), a .txt or .lst file listing
+// paths (one per line), or a single MIDI file. Each source is one dataset.
+type Source struct {
+	Path string
+	// Dataset names the source in records and summaries; empty means the base name of
+	// the folder or file without its extensions ("corpus.tar.gz" -> "corpus").
+	Dataset string
+}
+
+// ParseSource reads a command-line source argument: PATH, or NAME=PATH to name the
+// dataset. An argument is read as NAME=PATH only when the text before the first "=" is a
+// non-empty name without a path separator and the whole argument is not an existing path.
+func ParseSource(arg string) Source {
+	if name, path, ok := strings.Cut(arg, "="); ok && name != "" && path != "" && !strings.ContainsAny(name, `/\`) {
+		if _, err := os.Lstat(arg); err != nil {
+			return Source{Path: path, Dataset: name}
+		}
+	}
+	return Source{Path: arg}
+}
+
+// DatasetName returns the dataset name: Dataset when set, else the base name of Path
+// without its source or MIDI extensions.
+func (s Source) DatasetName() string {
+	if s.Dataset != "" {
+		return s.Dataset
+	}
+	p := filepath.Clean(s.Path)
+	if p == "." || p == ".." || p == string(filepath.Separator) {
+		if abs, err := filepath.Abs(p); err == nil {
+			p = abs
+		}
+	}
+	base := filepath.Base(p)
+	lower := strings.ToLower(base)
+	for _, ext := range []string{".tar.gz", ".tgz", ".tar", ".zip", ".txt", ".lst"} {
+		if strings.HasSuffix(lower, ext) && len(base) > len(ext) {
+			return base[:len(base)-len(ext)]
+		}
+	}
+	if isMIDIName(base) {
+		if strings.HasSuffix(lower, ".gz") {
+			base = base[:len(base)-3]
+		}
+		return strings.TrimSuffix(base, filepath.Ext(base))
+	}
+	return base
+}
+
+// sourceKind is how a source is enumerated.
+type sourceKind int
+
+const (
+	kindFolder sourceKind = iota
+	kindZip
+	kindTar
+	kindTarGz
+	kindList
+	kindFile
+)
+
+// kind classifies a source by what is on disk and its name; a missing path or an
+// unknown kind of file is an error before any file is read.
+func (s Source) kind() (sourceKind, error) {
+	fi, err := os.Stat(s.Path)
+	if err != nil {
+		return 0, fmt.Errorf("source %s: %w", s.Path, err)
+	}
+	if fi.IsDir() {
+		return kindFolder, nil
+	}
+	lower := strings.ToLower(s.Path)
+	if k, ok := archiveKind(lower); ok && fi.Mode().IsRegular() {
+		return k, nil
+	}
+	switch {
+	case !fi.Mode().IsRegular():
+		return 0, fmt.Errorf("source %s: %w", s.Path, ErrSpecialEntry)
+	case strings.HasSuffix(lower, ".txt"), strings.HasSuffix(lower, ".lst"):
+		return kindList, nil
+	case isMIDIName(lower):
+		return kindFile, nil
+	}
+	return 0, fmt.Errorf("source %s: %w", s.Path, ErrUnknownSource)
+}
+
+// midiExts are the file name extensions read as MIDI, compared case-insensitively
+// (common practice: .mid and .midi for SMF, .smf, and .rmi for RIFF-wrapped MIDI).
+var midiExts = []string{".mid", ".midi", ".smf", ".rmi"}
+
+// isMIDIName reports whether a file name has a MIDI extension, optionally followed by .gz.
+func isMIDIName(name string) bool {
+	lower := strings.ToLower(name)
+	lower = strings.TrimSuffix(lower, ".gz")
+	for _, ext := range midiExts {
+		if strings.HasSuffix(lower, ext) && len(lower) > len(ext) && lower[len(lower)-len(ext)-1] != '/' {
+			return true
+		}
+	}
+	return false
+}
+
+// isGzipName reports whether a MIDI file name says the bytes are gzip-compressed.
+func isGzipName(name string) bool {
+	return strings.HasSuffix(strings.ToLower(name), ".gz")
+}
+
+// entry is one input file of a source, ready for a worker: its bytes are either
+// preloaded (tar streams), loaded on demand (folders, zip), or it is already known to be
+// skipped (err set).
+type entry struct {
+	dataset, source, path string
+	data                  []byte
+	load                  func() ([]byte, error)
+	release               func() // called once the entry's bytes were loaded (or abandoned)
+	err                   error
+}
+
+// emitFunc hands one entry on; it blocks while the pipeline is full and fails only when
+// the scan is cancelled.
+type emitFunc func(*entry) error
+
+// enumerate lists a source's inputs in stable order (sorted by path) and emits them.
+// Per-file and per-source problems become entries with err set; only cancellation
+// returns an error.
+func enumerate(ctx context.Context, src Source, kind sourceKind, opts *Options, emit emitFunc) error {
+	ds := src.DatasetName()
+	base := entry{dataset: ds, source: src.Path}
+	switch kind {
+	case kindFolder:
+		return enumerateFolder(ctx, src.Path, base, opts, emit)
+	case kindZip:
+		return enumerateZip(ctx, src.Path, base, opts, emit)
+	case kindTar, kindTarGz:
+		return enumerateTar(ctx, src.Path, kind == kindTarGz, base, opts, emit)
+	case kindList:
+		return enumerateList(src.Path, base, opts, emit)
+	case kindFile:
+		e := base
+		e.path = filepath.Base(src.Path)
+		e.load = fileLoader(src.Path, opts.MaxFileSize)
+		return emit(&e)
+	}
+	return fmt.Errorf("internal error: unknown source kind %d", kind)
+}
+
+// fileLoader reads a file of at most max bytes, checking its size before reading and
+// never reading more than max+1 bytes (the file may grow while read).
+func fileLoader(path string, max int64) func() ([]byte, error) {
+	return func() ([]byte, error) {
+		f, err := os.Open(path)
+		if err != nil {
+			return nil, err
+		}
+		defer f.Close()
+		fi, err := f.Stat()
+		if err != nil {
+			return nil, err
+		}
+		if !fi.Mode().IsRegular() {
+			return nil, ErrSpecialEntry
+		}
+		tooBig := fmt.Errorf("%d bytes, limit %s: %w", fi.Size(), sizeString(max), ErrTooLarge)
+		if fi.Size() > max {
+			return nil, tooBig
+		}
+		data, err := readCapped(f, max, fi.Size(), fmt.Errorf("grew past the limit %s while read: %w", sizeString(max), ErrTooLarge))
+		if err != nil {
+			return nil, fmt.Errorf("read: %w", err)
+		}
+		return data, nil
+	}
+}
+
+// folderFile is one file found in a folder walk, with its path relative to the root.
+type folderFile struct {
+	rel, abs string
+	archive  sourceKind // kindFile, or the kind of an archive read in place
+	err      error
+}
+
+// enumerateFolder walks a folder recursively, following symbolic links to folders at
+// most once each (so link loops end), and emits its MIDI files sorted by relative path.
+// Zip and tar archives in the folder are read in place at their place in that order,
+// their entries named "archive/entry". Other files are ignored; an unreadable subfolder
+// or a broken link with a MIDI name is an entry with its error.
+func enumerateFolder(ctx context.Context, root string, base entry, opts *Options, emit emitFunc) error {
+	var files []folderFile
+	visited := map[string]bool{}
+	var walk func(dir, rel string)
+	walk = func(dir, rel string) {
+		if real, err := filepath.EvalSymlinks(dir); err == nil {
+			if visited[real] {
+				return
+			}
+			visited[real] = true
+		}
+		des, err := os.ReadDir(dir)
+		if err != nil {
+			files = append(files, folderFile{rel: relOrDot(rel), err: fmt.Errorf("read folder: %w", err)})
+		}
+		for _, de := range des {
+			abs := filepath.Join(dir, de.Name())
+			r := de.Name()
+			if rel != "" {
+				r = rel + "/" + de.Name()
+			}
+			mode := de.Type()
+			if mode&fs.ModeSymlink != 0 {
+				fi, err := os.Stat(abs)
+				if err != nil {
+					if isMIDIName(de.Name()) {
+						files = append(files, folderFile{rel: r, err: fmt.Errorf("broken link: %w", err)})
+					}
+					continue
+				}
+				mode = fi.Mode().Type()
+			}
+			ak, isArchive := archiveKind(de.Name())
+			switch {
+			case mode.IsDir():
+				walk(abs, r)
+			case isArchive && mode.IsRegular():
+				files = append(files, folderFile{rel: r, abs: abs, archive: ak})
+			case !isMIDIName(de.Name()):
+			case mode.IsRegular():
+				files = append(files, folderFile{rel: r, abs: abs, archive: kindFile})
+			default:
+				files = append(files, folderFile{rel: r, err: ErrSpecialEntry})
+			}
+		}
+	}
+	walk(root, "")
+	slices.SortStableFunc(files, func(a, b folderFile) int { return strings.Compare(a.rel, b.rel) })
+	for _, f := range files {
+		e := base
+		e.path = f.rel
+		e.err = f.err
+		var err error
+		switch {
+		case f.err != nil:
+			err = emit(&e)
+		case f.archive == kindZip:
+			e.path += "/"
+			err = enumerateZip(ctx, f.abs, e, opts, emit)
+		case f.archive == kindTar || f.archive == kindTarGz:
+			e.path += "/"
+			err = enumerateTar(ctx, f.abs, f.archive == kindTarGz, e, opts, emit)
+		default:
+			e.load = fileLoader(f.abs, opts.MaxFileSize)
+			err = emit(&e)
+		}
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// archiveKind reports whether a file name is that of an archive read in place.
+func archiveKind(name string) (sourceKind, bool) {
+	lower := strings.ToLower(name)
+	switch {
+	case strings.HasSuffix(lower, ".zip"):
+		return kindZip, true
+	case strings.HasSuffix(lower, ".tar"):
+		return kindTar, true
+	case strings.HasSuffix(lower, ".tar.gz"), strings.HasSuffix(lower, ".tgz"):
+		return kindTarGz, true
+	}
+	return 0, false
+}
+
+func relOrDot(rel string) string {
+	if rel == "" {
+		return "."
+	}
+	return rel
+}
+
+// maxListSize caps a path-list file (a list of a million long paths fits).
+const maxListSize = 256 << 20
+
+// enumerateList reads a file listing one path per line (blank lines and lines starting
+// with # ignored; relative paths are relative to the list file's folder) and emits each
+// listed file, sorted by the path as written. Every listed path is an input, whatever
+// its extension; a name ending in .gz is decompressed.
+func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) error {
+	data, err := fileLoader(listPath, maxListSize)()
+	if err != nil {
+		e := base
+		e.err = fmt.Errorf("read path list: %w", err)
+		return emit(&e)
+	}
+	dir := filepath.Dir(listPath)
+	var paths []string
+	sc := bufio.NewScanner(bytes.NewReader(data))
+	sc.Buffer(nil, 1<<20)
+	for sc.Scan() {
+		line := strings.TrimSpace(sc.Text())
+		if line == "" || strings.HasPrefix(line, "#") {
+			continue
+		}
+		paths = append(paths, line)
+	}
+	var scanErr error
+	if err := sc.Err(); err != nil {
+		scanErr = fmt.Errorf("read path list: %w", err)
+	}
+	slices.Sort(paths)
+	for _, p := range paths {
+		e := base
+		e.path = p
+		abs := p
+		if !filepath.IsAbs(abs) {
+			abs = filepath.Join(dir, p)
+		}
+		e.load = fileLoader(abs, opts.MaxFileSize)
+		if err := emit(&e); err != nil {
+			return err
+		}
+	}
+	if scanErr != nil {
+		e := base
+		e.err = scanErr
+		return emit(&e)
+	}
+	return nil
+}
