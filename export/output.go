@@ -1,0 +1,154 @@
+package export
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"strconv"
+)
+
+// outputSpec is everything the output stage needs besides the rows.
+type outputSpec struct {
+	dir         string
+	cfg         Config
+	part        Part
+	overwrite   bool
+	workers     int
+	toolVersion string
+	licenses    map[string]string
+	encoding    string
+	timeUnit    string
+	vocabSize   int
+	maxLen      int
+	vocabulary  json.RawMessage
+	buckets     json.RawMessage
+	onShard     func(Shard)
+}
+
+// fileResult is what the pipeline hands the output stage for one input file, in
+// scan order: its manifest entry and its rows (pieces kept, all windows).
+type fileResult struct {
+	entry FileEntry
+	rows  []Row
+}
+
+// writeOutput claims the folder, writes the rows that feed emits as shards, and
+// writes the manifest last. coverage is called after the last row to obtain the
+// coverage summary. feed must call emit in a deterministic order.
+func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileResult) error) error, coverage func() (json.RawMessage, error)) (*Manifest, error) {
+	hash := sp.cfg.Hash()
+	mk := marker{Format: ManifestKind, ConfigHash: hash}
+	if !sp.part.Whole() {
+		p := sp.part
+		mk.Part = &p
+	}
+	if err := prepareOut(sp.dir, mk, sp.overwrite); err != nil {
+		return nil, err
+	}
+	opt := ShardOptions{
+		Compression:   sp.cfg.Shards.Compression,
+		RowGroupBytes: sp.cfg.Shards.rowGroupBytes(),
+		CreatedBy:     "relshard " + sp.toolVersion,
+		Metadata: map[string]string{
+			MetaSchemaVersion: strconv.Itoa(SchemaVersion),
+			MetaEncoding:      sp.encoding,
+			MetaVocabulary:    string(sp.vocabulary),
+			MetaBuckets:       string(sp.buckets),
+			MetaTimeUnit:      sp.timeUnit,
+			MetaConfigHash:    hash,
+			MetaToolVersion:   sp.toolVersion,
+		},
+	}
+	dw := newDatasetWriter(ctx, sp.dir, sp.part, sp.cfg.Shards, opt, sp.workers, sp.onShard)
+	var files []FileEntry
+	splitPieces := map[string]int64{}
+	err := feed(func(fr fileResult) error {
+		files = append(files, fr.entry)
+		seen := map[string]bool{}
+		for _, r := range fr.rows {
+			if !seen[r.Piece] {
+				splitPieces[r.Split]++
+				seen[r.Piece] = true
+			}
+			if err := dw.add(r); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		dw.abort()
+		return nil, err
+	}
+	shards, err := dw.finish()
+	if err != nil {
+		return nil, err
+	}
+	cov, err := coverage()
+	if err != nil {
+		return nil, err
+	}
+	keep := map[string]bool{}
+	for _, sh := range shards {
+		keep[sh.Path] = true
+	}
+	// Shards a previous run of the same config made beyond this run's (the
+	// inputs changed) would otherwise linger unlisted.
+	if err := removeShardFiles(sp.dir, keep); err != nil {
+		return nil, err
+	}
+	m := &Manifest{
+		Format:        ManifestKind,
+		SchemaVersion: SchemaVersion,
+		ToolVersion:   sp.toolVersion,
+		ConfigHash:    hash,
+		Config:        sp.cfg,
+		Part:          mk.Part,
+		Encoding:      sp.encoding,
+		TimeUnit:      sp.timeUnit,
+		VocabSize:     sp.vocabSize,
+		MaxLen:        sp.maxLen,
+		Vocabulary:    sp.vocabulary,
+		Buckets:       sp.buckets,
+		Coverage:      cov,
+		Licenses:      sp.licenses,
+		Shards:        shards,
+		Files:         files,
+	}
+	if m.Shards == nil {
+		m.Shards = []Shard{}
+	}
+	if m.Files == nil {
+		m.Files = []FileEntry{}
+	}
+	m.recount(splitPieces)
+	if err := commitManifest(sp.dir, m); err != nil {
+		return nil, err
+	}
+	return m, nil
+}
+
+// commitManifest makes the shards durable, writes the manifest (atomically, last)
+// and removes the run marker.
+func commitManifest(dir string, m *Manifest) error {
+	for _, s := range Splits {
+		if err := syncDir(filepath.Join(dir, s)); err != nil && !errors.Is(err, fs.ErrNotExist) {
+			return err
+		}
+	}
+	data, err := m.Encode()
+	if err != nil {
+		return err
+	}
+	if err := writeFileAtomic(filepath.Join(dir, ManifestName), data); err != nil {
+		return fmt.Errorf("write manifest: %w", err)
+	}
+	if err := os.Remove(filepath.Join(dir, MarkerName)); err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("remove run marker: %w", err)
+	}
+	return syncDir(dir)
+}

@@ -1,0 +1,198 @@
+package export
+
+import (
+	"bufio"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"hash"
+	"io"
+	"maps"
+	"os"
+	"path/filepath"
+	"slices"
+
+	"github.com/parquet-go/parquet-go"
+	"github.com/parquet-go/parquet-go/compress"
+	"github.com/parquet-go/parquet-go/compress/snappy"
+	"github.com/parquet-go/parquet-go/compress/uncompressed"
+	"github.com/parquet-go/parquet-go/compress/zstd"
+)
+
+// Compression names accepted in Settings.Compression.
+const (
+	CompressionZstd   = "zstd"
+	CompressionSnappy = "snappy"
+	CompressionNone   = "none"
+)
+
+// codecs are shared: parquet-go codecs pool their encoders and are safe for
+// concurrent use.
+var codecs = map[string]compress.Codec{
+	CompressionZstd:   &zstd.Codec{Level: zstd.DefaultLevel},
+	CompressionSnappy: &snappy.Codec{},
+	CompressionNone:   &uncompressed.Codec{},
+}
+
+// ShardOptions control how one shard file is encoded.
+type ShardOptions struct {
+	// Compression is CompressionZstd (the default when empty), CompressionSnappy
+	// or CompressionNone.
+	Compression string
+	// RowGroupBytes is the target uncompressed payload of one row group; a group
+	// is closed at the first row that reaches it. Zero means DefaultRowGroupBytes.
+	RowGroupBytes int64
+	// Metadata is written as the file's key-value metadata (sorted by key).
+	Metadata map[string]string
+	// CreatedBy names the writing application in the footer, e.g. "relshard v1.0".
+	CreatedBy string
+}
+
+// DefaultRowGroupBytes is the default row-group target: small enough that a
+// shuffling loader holding a few row groups per worker stays within a few
+// hundred megabytes, large enough that per-group overhead stays negligible.
+const DefaultRowGroupBytes = 16 << 20
+
+// Shard describes one written shard file, as listed in the manifest.
+type Shard struct {
+	Path   string `json:"path"`   // slash-separated, relative to the dataset folder
+	Split  string `json:"split"`  // split of every row
+	Rows   int64  `json:"rows"`   // rows (windows)
+	Tokens int64  `json:"tokens"` // sum of the rows' token counts
+	Bytes  int64  `json:"bytes"`  // file size
+	SHA256 string `json:"sha256"` // hex SHA-256 of the file
+}
+
+// WriteShard writes rows as one Parquet file at path, crash-safely: the data goes
+// to a temporary name in the same folder (see TempSuffix), is synced, and is
+// renamed to path only when complete, so path never holds a partial file. The
+// returned Shard has the path as given (callers make it relative).
+func WriteShard(path string, rows []Row, opt ShardOptions) (Shard, error) {
+	sh := Shard{Path: path, Rows: int64(len(rows))}
+	if len(rows) > 0 {
+		sh.Split = rows[0].Split
+	}
+	for i := range rows {
+		sh.Tokens += int64(len(rows[i].Tokens))
+	}
+	tmp := path + TempSuffix
+	f, err := os.OpenFile(tmp, os.O_CREATE|os.O_TRUNC|os.O_WRONLY, 0o644)
+	if err != nil {
+		return sh, fmt.Errorf("create shard: %w", err)
+	}
+	h := sha256.New()
+	cw := &countWriter{w: io.MultiWriter(f, h)}
+	bw := bufio.NewWriterSize(cw, 1<<20)
+	err = encodeShard(bw, rows, opt)
+	if err == nil {
+		err = bw.Flush()
+	}
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Rename(tmp, path)
+	}
+	if err != nil {
+		os.Remove(tmp)
+		return sh, fmt.Errorf("write shard %s: %w", filepath.Base(path), err)
+	}
+	sh.Bytes = cw.n
+	sh.SHA256 = hex.EncodeToString(h.Sum(nil))
+	return sh, nil
+}
+
+// TempSuffix ends the name of every file being written; such a file is never
+// complete and a rerun removes it.
+const TempSuffix = ".partial"
+
+// EncodeShard writes rows as one Parquet file to w. It is what WriteShard does
+// inside its temporary file, for callers that keep shards elsewhere.
+func EncodeShard(w io.Writer, rows []Row, opt ShardOptions) error {
+	return encodeShard(w, rows, opt)
+}
+
+func encodeShard(w io.Writer, rows []Row, opt ShardOptions) error {
+	name := opt.Compression
+	if name == "" {
+		name = CompressionZstd
+	}
+	codec, ok := codecs[name]
+	if !ok {
+		return fmt.Errorf("unknown compression %q (want zstd, snappy or none)", name)
+	}
+	groupBytes := opt.RowGroupBytes
+	if groupBytes <= 0 {
+		groupBytes = DefaultRowGroupBytes
+	}
+	options := []parquet.WriterOption{
+		parquet.Compression(codec),
+		// No per-page statistics on the list columns: readers of training data
+		// never filter by token id, and the statistics only add bytes.
+		parquet.SkipPageStatistics("tokens", "list", "element"),
+		parquet.SkipPageStatistics("time", "list", "element"),
+		parquet.SkipPageStatistics("pitch", "list", "element"),
+		parquet.SkipPageStatistics("inst", "list", "element"),
+	}
+	if opt.CreatedBy != "" {
+		options = append(options, parquet.CreatedBy(opt.CreatedBy, "", ""))
+	}
+	for _, k := range slices.Sorted(maps.Keys(opt.Metadata)) {
+		options = append(options, parquet.KeyValueMetadata(k, opt.Metadata[k]))
+	}
+	pw := parquet.NewGenericWriter[Row](w, options...)
+	var group int64
+	start := 0
+	for i := range rows {
+		group += rows[i].payloadBytes()
+		if group < groupBytes && i+1 < len(rows) {
+			continue
+		}
+		if _, err := pw.Write(rows[start : i+1]); err != nil {
+			return fmt.Errorf("encode rows %d-%d: %w", start, i, err)
+		}
+		if err := pw.Flush(); err != nil {
+			return fmt.Errorf("flush row group: %w", err)
+		}
+		start, group = i+1, 0
+	}
+	if err := pw.Close(); err != nil {
+		return fmt.Errorf("close parquet writer: %w", err)
+	}
+	return nil
+}
+
+type countWriter struct {
+	w io.Writer
+	n int64
+}
+
+func (c *countWriter) Write(p []byte) (int, error) {
+	n, err := c.w.Write(p)
+	c.n += int64(n)
+	return n, err
+}
+
+// fileSHA256 returns the size and hex SHA-256 of a file.
+func fileSHA256(path string) (int64, string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, "", err
+	}
+	defer f.Close()
+	return hashReader(f, sha256.New())
+}
+
+func hashReader(r io.Reader, h hash.Hash) (int64, string, error) {
+	n, err := io.Copy(h, r)
+	if err != nil {
+		return n, "", err
+	}
+	return n, hex.EncodeToString(h.Sum(nil)), nil
+}
+
+var errNotOurs = errors.New("not a relshard output folder")
