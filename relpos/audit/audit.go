@@ -17,13 +17,17 @@ type Config struct {
 	// Tokenize is the encoding whose windows the pairwise Δt and Δp are counted in.
 	// Only the identity variant is audited: augmentation is left out.
 	Tokenize tokenize.Config
+	// Relpos gives the bucket schemes: its time and pitch schemes are drawn on the Δt
+	// and Δp charts, and their coverage is reported per dataset.
+	Relpos   relpos.Config
 	Grid     GridConfig
 	Tempo    TempoRange
 	Outlier  OutlierConfig
-	// TimeSchemes and PitchSchemes are drawn on the Δt and Δp charts and their
-	// coverage is reported per dataset.
-	TimeSchemes  []*relpos.Scheme
-	PitchSchemes []*relpos.Scheme
+	// Scan is handed to ingest.Scan by Run.
+	Scan ingest.Options
+	// ByFolder makes each top-level folder of a single unnamed source its own dataset
+	// (files directly in the source keep the source's name).
+	ByFolder bool
 	// Workers audit pieces in parallel in Run; 0 means one per core.
 	Workers int
 }
@@ -44,24 +48,19 @@ type OutlierConfig struct {
 	GridMajority float64 `json:"grid_majority"`
 }
 
-// DefaultConfig returns the defaults: the tokenize defaults, grid detection with
-// DefaultGridConfig, tempos outside 20–400 BPM flagged, the default outlier rules,
-// and as schemes the linear clipping of Shaw et al. 2018 for time (10 ms wide, clip
-// 100, i.e. ±1 s) and pitch (1 semitone, clip 24).
+// DefaultConfig returns the defaults: the tokenize, relpos and ingest defaults, grid
+// detection with DefaultGridConfig, tempos outside 20–400 BPM flagged, the default
+// outlier rules, one dataset per top-level folder of a single source.
 func DefaultConfig() Config {
-	c := Config{
+	return Config{
 		Tokenize: tokenize.DefaultConfig(),
+		Relpos:   relpos.DefaultConfig(),
 		Grid:     DefaultGridConfig(),
 		Tempo:    TempoRange{MinBPM: 20, MaxBPM: 400},
 		Outlier:  OutlierConfig{MinPairs: 500, MinJSD: 0.15, MADs: 4, GridMajority: 0.8},
+		Scan:     ingest.DefaultOptions(),
+		ByFolder: true,
 	}
-	if s, err := relpos.Linear(10, 100); err == nil {
-		c.TimeSchemes = []*relpos.Scheme{s}
-	}
-	if s, err := relpos.Linear(1, 24); err == nil {
-		c.PitchSchemes = []*relpos.Scheme{s}
-	}
-	return c
 }
 
 // Validate reports every invalid setting.
@@ -83,10 +82,8 @@ func (c Config) Validate() error {
 	if c.Workers < 0 {
 		errs = append(errs, fmt.Errorf("workers %d: want 0 (all cores) or more", c.Workers))
 	}
-	for _, s := range append(slices.Clone(c.TimeSchemes), c.PitchSchemes...) {
-		if s == nil {
-			errs = append(errs, errors.New("nil bucket scheme"))
-		}
+	if err := c.Relpos.Validate(); err != nil {
+		errs = append(errs, err)
 	}
 	if len(errs) > 0 {
 		return fmt.Errorf("audit config: %w", errors.Join(errs...))
@@ -108,6 +105,7 @@ type dsAcc struct {
 	drums        int64
 	ms           int64
 	windows      int64
+	notEncoded   int
 	grids        map[string]int
 	ppqs         map[string]int
 	tempoFlagged int
@@ -146,6 +144,7 @@ func (a *dsAcc) merge(o *dsAcc) {
 	a.drums += o.drums
 	a.ms += o.ms
 	a.windows += o.windows
+	a.notEncoded += o.notEncoded
 	for k, v := range o.grids {
 		a.grids[k] += v
 	}
@@ -172,6 +171,8 @@ func (a *dsAcc) merge(o *dsAcc) {
 type Auditor struct {
 	cfg      Config
 	enc      *tokenize.Encoder
+	time     []*relpos.Scheme
+	pitch    []*relpos.Scheme
 	datasets map[string]*dsAcc
 	files    []File
 	seq      int64
@@ -194,9 +195,26 @@ func New(cfg Config) (*Auditor, error) {
 	if err != nil {
 		return nil, fmt.Errorf("audit: %w", err)
 	}
+	rc := cfg.Relpos.Resolved()
+	var ts, ps []*relpos.Scheme
+	for _, k := range []relpos.Kind{relpos.Time, relpos.Pitch} {
+		for _, spec := range rc.Specs(k) {
+			sch, err := spec.Build(rc.Pairs)
+			if err != nil {
+				return nil, fmt.Errorf("audit: %s scheme %s: %w", k, spec, err)
+			}
+			if k == relpos.Time {
+				ts = append(ts, sch)
+			} else {
+				ps = append(ps, sch)
+			}
+		}
+	}
 	return &Auditor{
 		cfg:      cfg,
 		enc:      enc,
+		time:     ts,
+		pitch:    ps,
 		datasets: map[string]*dsAcc{},
 		fdt:      newHist(0, maxPairDT),
 		fdp:      newHist(-maxPairDP, maxPairDP),
@@ -206,7 +224,7 @@ func New(cfg Config) (*Auditor, error) {
 func (a *Auditor) dataset(name string) *dsAcc {
 	d := a.datasets[name]
 	if d == nil {
-		d = newDSAcc(len(a.cfg.TimeSchemes) + len(a.cfg.PitchSchemes))
+		d = newDSAcc(len(a.time) + len(a.pitch))
 		a.datasets[name] = d
 	}
 	return d
@@ -235,6 +253,9 @@ func (a *Auditor) AddPiece(dataset, path string, p *ingest.Piece) error {
 }
 
 func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) error {
+	if p == nil {
+		return fmt.Errorf("audit %s: nil piece", path)
+	}
 	d := a.dataset(dataset)
 	f := File{Dataset: dataset, Path: path, Piece: p.Index, seq: seq}
 	addNotes(p, d.notes, &a.sc, a.cfg.Tempo, &f)
@@ -244,17 +265,21 @@ func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) err
 	resetHist(a.fdp)
 	var err error
 	a.stream, _, err = a.enc.Encode(p, tokenize.Identity, a.stream[:0])
-	if err != nil {
-		return fmt.Errorf("audit %s: piece %d: %w", path, p.Index, err)
+	if err == nil {
+		err = a.enc.WindowsOf(a.stream, tokenize.Identity, func(w tokenize.Window) error {
+			f.Windows++
+			a.pc.window(w.Tokens, a.fdt, a.fdp)
+			a.cover(d, w.Tokens)
+			return nil
+		})
 	}
-	err = a.enc.WindowsOf(a.stream, tokenize.Identity, func(w tokenize.Window) error {
-		f.Windows++
-		a.pc.window(w.Tokens, a.fdt, a.fdp)
-		a.cover(d, w.Tokens)
-		return nil
-	})
 	if err != nil {
-		return fmt.Errorf("audit %s: piece %d: windows: %w", path, p.Index, err)
+		// A piece the encoder refuses (too long, say) keeps its note statistics and is
+		// reported; it has no pairs.
+		f.Error = fmt.Sprintf("encode %s: piece %d: %v", path, p.Index, err)
+		d.notEncoded++
+		resetHist(a.fdt)
+		resetHist(a.fdp)
 	}
 	f.Pairs = a.fdt.N
 	f.dtBins = timeBinsFor(a.enc.TimeUnit()).Count(a.fdt)
@@ -344,6 +369,7 @@ func (a *Auditor) Report() *Report {
 			Grids:        sortedCounts(acc.grids),
 			PPQs:         sortedCounts(acc.ppqs),
 			TempoFlagged: acc.tempoFlagged,
+			NotEncoded:   acc.notEncoded,
 			MissingMeter: acc.missingMeter,
 			acc:          acc,
 		}

@@ -25,10 +25,10 @@ func TestJensenShannon(t *testing.T) {
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
 			got := JensenShannon(tc.p, tc.q)
-			if !close(got, tc.want, 1e-12) {
+			if !near(got, tc.want, 1e-12) {
 				t.Errorf("JensenShannon(%v, %v) = %v, want %v", tc.p, tc.q, got, tc.want)
 			}
-			if back := JensenShannon(tc.q, tc.p); !close(back, got, 1e-12) {
+			if back := JensenShannon(tc.q, tc.p); !near(back, got, 1e-12) {
 				t.Errorf("not symmetric: %v vs %v", got, back)
 			}
 		})
@@ -57,7 +57,7 @@ func TestWasserstein(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			xw := append([]float64(nil), tc.xw...)
 			got := Wasserstein(tc.xs, tc.xw, tc.ys, tc.yw)
-			if !close(got, tc.want, 1e-9) {
+			if !near(got, tc.want, 1e-9) {
 				t.Errorf("Wasserstein = %v, want %v", got, tc.want)
 			}
 			for i := range xw {
@@ -77,7 +77,7 @@ func TestHistWasserstein(t *testing.T) {
 		b.AddN(v+25, n)
 	}
 	got, res := histWasserstein(a, b)
-	if res != 1 || !close(got, 25, 1e-9) {
+	if res != 1 || !near(got, 25, 1e-9) {
 		t.Errorf("histWasserstein = %v at resolution %d, want 25 at 1", got, res)
 	}
 	// Many distinct values are merged; the shift is still recovered to within the
@@ -93,7 +93,7 @@ func TestHistWasserstein(t *testing.T) {
 	}
 }
 
-func close(a, b, tol float64) bool {
+func near(a, b, tol float64) bool {
 	if math.IsNaN(a) || math.IsNaN(b) {
 		return math.IsNaN(a) && math.IsNaN(b)
 	}

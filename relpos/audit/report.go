@@ -55,6 +55,7 @@ type Dataset struct {
 	PPQs         []Count `json:"ppqs"`          // pieces per PPQ ("SMPTE" for SMPTE division)
 	TempoFlagged int     `json:"tempo_flagged"` // pieces with a tempo outside the plausible range
 	MissingMeter int     `json:"missing_meter"` // pieces without a time signature
+	NotEncoded   int     `json:"not_encoded"`   // pieces the encoder refused (see File.Error)
 
 	acc *dsAcc
 }
@@ -166,6 +167,7 @@ type File struct {
 	Grid         Grid       `json:"grid"`
 	Tempo        TempoCheck `json:"tempo"`
 	MissingMeter bool       `json:"missing_meter"`
+	Error        string     `json:"error,omitempty"` // why the piece has no windows
 	Windows      int        `json:"windows"`
 	Pairs        int64      `json:"pairs"`
 	// DTDivergence and DPDivergence are the Jensen–Shannon divergences (nats) of the

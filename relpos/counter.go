@@ -1,0 +1,478 @@
+package relpos
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/relshard/relshard/tokenize"
+)
+
+// Class is an instrument class of pairs for the breakdown.
+type Class int
+
+// Instrument classes: a pair belongs to a class when both of its tokens do.
+const (
+	Drums   Class = iota // tokenize.InstDrums
+	Pitched              // General MIDI programs 0-127
+	numClasses
+)
+
+func (c Class) String() string {
+	if c == Drums {
+		return "drums"
+	}
+	return "pitched"
+}
+
+// pitchSpan is the number of pitch offsets −127..127.
+const pitchSpan = 255
+
+// Counter counts the offsets of the pairs of training windows into a Tally, exactly in
+// about O(L·C) per window of L tokens and C bucket edges: token distance in closed form,
+// time with one moving pointer per edge over the non-decreasing times, pitch with a
+// running pitch histogram. A Counter keeps scratch buffers: use one per goroutine.
+type Counter struct {
+	cfg     Config
+	schemes [numKinds][]*Scheme
+	// cuts are the offsets x ≤ 0, ascending, at which kinds counted by pointers (time;
+	// distance within an instrument class) record the number of pairs with Δ < x.
+	cuts [numKinds][]int64
+	// mags are the magnitudes a at which the number of pairs with |Δ| ≤ a is known on
+	// pointer-counted kinds: every a ≤ exactMags, then steps of a/12.
+	mags []int64
+
+	jointT, jointP *Scheme
+	pitchBucket    [pitchSpan]int32 // bucket of Δp+127 in jointP
+
+	// scratch
+	val, pos []int64
+	pit      []int16
+}
+
+// exactMags is the largest magnitude up to which quantiles of pointer-counted kinds are
+// exact; above it they are known within a step of a/12 (≤ 8.4 %).
+const exactMags = 32
+
+func quantileMags() []int64 {
+	var m []int64
+	for a := int64(0); a <= math.MaxInt32; {
+		m = append(m, a)
+		if a < exactMags {
+			a++
+		} else {
+			a += a / 12
+		}
+	}
+	return m
+}
+
+// NewCounter validates the config and prepares the schemes.
+func NewCounter(cfg Config) (*Counter, error) {
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
+	cfg = cfg.Resolved()
+	c := &Counter{cfg: cfg, mags: quantileMags()}
+	for _, k := range Kinds {
+		for _, spec := range cfg.Specs(k) {
+			s, err := spec.Build(cfg.Pairs)
+			if err != nil {
+				return nil, err
+			}
+			c.schemes[k] = append(c.schemes[k], s)
+		}
+	}
+	for _, k := range []Kind{Distance, Time} {
+		var cuts []int64
+		add := func(x int64) {
+			switch {
+			case x <= 0:
+				cuts = append(cuts, x)
+			case cfg.Pairs == Bidirectional:
+				cuts = append(cuts, -x+1) // #(Δ < x) = pairs − #(Δ < −x+1) by symmetry
+			}
+		}
+		for _, s := range c.schemes[k] {
+			for _, x := range s.cutPoints() {
+				add(x)
+			}
+		}
+		for _, a := range c.mags {
+			add(-a)
+		}
+		for _, a := range c.budgetMags(k) {
+			add(-a)
+		}
+		c.cuts[k] = sortedUnique(cuts)
+	}
+	if cfg.Joint {
+		c.jointT, c.jointP = c.schemes[Time][0], c.schemes[Pitch][0]
+		for d := -127; d <= 127; d++ {
+			c.pitchBucket[d+127] = int32(c.jointP.Bucket(int64(d)))
+		}
+	}
+	return c, nil
+}
+
+// Config returns the resolved config.
+func (c *Counter) Config() Config { return c.cfg }
+
+// Schemes returns the schemes of an offset kind in config order.
+func (c *Counter) Schemes(k Kind) []*Scheme { return c.schemes[k] }
+
+// budgetClip returns the largest clip whose rows fit the budget, or −1.
+func (c *Counter) budgetClip() int {
+	b := c.cfg.Budget
+	if b <= 0 {
+		return -1
+	}
+	if c.cfg.Pairs == Causal {
+		return b - 1 // buckets −k..0 are the only ones causal pairs reach
+	}
+	return (b - 1) / 2
+}
+
+// budgetMags returns, per budget width w, the largest magnitude inside clip k: (k+1)w − 1.
+func (c *Counter) budgetMags(k Kind) []int64 {
+	clip := c.budgetClip()
+	if clip < 0 {
+		return nil
+	}
+	var m []int64
+	for _, w := range c.cfg.BudgetWidths.of(k) {
+		m = append(m, int64(clip+1)*int64(w)-1)
+	}
+	return m
+}
+
+// Tally accumulates the counts of many windows. Tallies of one Counter add up with Add.
+type Tally struct {
+	Windows int64 // windows counted
+	Tokens  int64 // tokens in them
+	NoPitch int64 // pairs in which at least one token has no pitch (counted, not bucketed by pitch)
+
+	sampled bool
+	all     stream
+	class   [numClasses]stream
+	joint   []int64 // jointT bucket × jointP bucket, row-major
+}
+
+// stream holds the counts of one stream of tokens: the whole window or one class.
+type stream struct {
+	pairs  [numKinds]int64
+	maxAbs [numKinds]int64
+	// exact counting
+	dneg, dpos []int64           // distance: pairs at Δ = −a and +a (whole window)
+	phist      [pitchSpan]int64  // pitch: pairs at Δp + 127
+	below      [numKinds][]int64 // pointer-counted kinds: pairs with Δ < cuts[k][i]
+	// sampling: per-scheme counts and a histogram of offsets
+	sc   [numKinds][]SchemeCounts
+	hist [numKinds]map[int64]int64
+}
+
+// NewTally returns an empty tally for this counter.
+func (c *Counter) NewTally() *Tally {
+	t := &Tally{sampled: c.cfg.Sample > 0 && c.cfg.Sample < 1}
+	c.initStream(&t.all, t.sampled)
+	for i := range t.class {
+		c.initStream(&t.class[i], t.sampled)
+	}
+	if c.jointT != nil {
+		t.joint = make([]int64, c.jointT.Buckets()*c.jointP.Buckets())
+	}
+	return t
+}
+
+func (c *Counter) initStream(s *stream, sampled bool) {
+	for _, k := range Kinds {
+		if sampled {
+			s.sc[k] = make([]SchemeCounts, len(c.schemes[k]))
+			for i, sch := range c.schemes[k] {
+				s.sc[k][i].Buckets = make([]int64, sch.Buckets())
+			}
+			s.hist[k] = map[int64]int64{}
+			continue
+		}
+		if c.cuts[k] != nil {
+			s.below[k] = make([]int64, len(c.cuts[k]))
+		}
+	}
+}
+
+// Add adds the counts of o, a tally of the same counter, to t.
+func (t *Tally) Add(o *Tally) {
+	t.Windows += o.Windows
+	t.Tokens += o.Tokens
+	t.NoPitch += o.NoPitch
+	t.all.add(&o.all)
+	for i := range t.class {
+		t.class[i].add(&o.class[i])
+	}
+	for i, v := range o.joint {
+		t.joint[i] += v
+	}
+}
+
+func (s *stream) add(o *stream) {
+	for k := range s.pairs {
+		s.pairs[k] += o.pairs[k]
+		s.maxAbs[k] = max(s.maxAbs[k], o.maxAbs[k])
+		for i, v := range o.below[k] {
+			s.below[k][i] += v
+		}
+		for i := range o.sc[k] {
+			s.sc[k][i].add(o.sc[k][i])
+		}
+		for d, n := range o.hist[k] {
+			s.hist[k][d] += n
+		}
+	}
+	s.dneg = addGrow(s.dneg, o.dneg)
+	s.dpos = addGrow(s.dpos, o.dpos)
+	for i, v := range o.phist {
+		s.phist[i] += v
+	}
+}
+
+func addGrow(dst, src []int64) []int64 {
+	if len(src) > len(dst) {
+		dst = append(dst, make([]int64, len(src)-len(dst))...)
+	}
+	for i, v := range src {
+		dst[i] += v
+	}
+	return dst
+}
+
+// checkWindow reports the first token that breaks the Token contract.
+func checkWindow(tokens []tokenize.Token) error {
+	for i, tk := range tokens {
+		if tk.Pitch < -1 || tk.Pitch > 127 {
+			return fmt.Errorf("window token %d: pitch %d outside -1..127", i, tk.Pitch)
+		}
+		if tk.Inst < -1 || tk.Inst > tokenize.InstDrums {
+			return fmt.Errorf("window token %d: instrument %d outside -1..%d", i, tk.Inst, tokenize.InstDrums)
+		}
+		if i > 0 && tk.Time < tokens[i-1].Time {
+			return fmt.Errorf("window token %d: time %d before the previous token's %d (times must not decrease)", i, tk.Time, tokens[i-1].Time)
+		}
+	}
+	return nil
+}
+
+// pairCount is the number of pairs of n tokens in the mode.
+func pairCount(n int64, m Mode) int64 {
+	if m == Causal {
+		return n * (n + 1) / 2
+	}
+	return n * n
+}
+
+// Count adds the pairs of one window to t, exactly. It errors, without counting, on a
+// window that breaks the tokenize.Token contract (times decreasing, pitch or
+// instrument out of range). With sampling configured, use Sample instead.
+func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
+	if t.sampled {
+		return fmt.Errorf("relpos: Count on a sampling tally; use Sample")
+	}
+	if err := checkWindow(tokens); err != nil {
+		return err
+	}
+	t.Windows++
+	t.Tokens += int64(len(tokens))
+	n := int64(len(tokens))
+	if n == 0 {
+		return nil
+	}
+	mode := c.cfg.Pairs
+	all := &t.all
+
+	// Token distance, closed form: n − a pairs at each offset ±a.
+	P := pairCount(n, mode)
+	all.pairs[Distance] += P
+	all.maxAbs[Distance] = max(all.maxAbs[Distance], n-1)
+	if int64(len(all.dneg)) < n {
+		all.dneg = append(all.dneg, make([]int64, n-int64(len(all.dneg)))...)
+		all.dpos = append(all.dpos, make([]int64, n-int64(len(all.dpos)))...)
+	}
+	for a := int64(0); a < n; a++ {
+		all.dneg[a] += n - a
+	}
+	if mode == Bidirectional {
+		for a := int64(1); a < n; a++ {
+			all.dpos[a] += n - a
+		}
+	}
+
+	// Time: moving pointers.
+	c.val = c.val[:0]
+	for _, tk := range tokens {
+		c.val = append(c.val, int64(tk.Time))
+	}
+	all.pairs[Time] += P
+	countPointers(c.val, c.cuts[Time], all.below[Time], &all.maxAbs[Time])
+
+	// Pitch: running histogram.
+	c.pit = c.pit[:0]
+	for _, tk := range tokens {
+		if tk.Pitch >= 0 {
+			c.pit = append(c.pit, tk.Pitch)
+		}
+	}
+	pp := countPitch(c.pit, mode, &all.phist, &all.maxAbs[Pitch])
+	all.pairs[Pitch] += pp
+	t.NoPitch += P - pp
+
+	if *c.cfg.Instruments {
+		for cl := range numClasses {
+			c.countClass(&t.class[cl], tokens, Class(cl))
+		}
+	}
+	if c.jointT != nil {
+		c.countJoint(t.joint, tokens)
+	}
+	return nil
+}
+
+// inClass reports whether a token belongs to an instrument class.
+func inClass(tk tokenize.Token, cl Class) bool {
+	if cl == Drums {
+		return tk.Inst == tokenize.InstDrums
+	}
+	return tk.Inst >= 0 && tk.Inst < tokenize.InstDrums
+}
+
+// countClass counts the pairs of one window whose tokens both belong to the class: the
+// class's tokens form a sub-stream whose distances are differences of window positions.
+func (c *Counter) countClass(s *stream, tokens []tokenize.Token, cl Class) {
+	c.pos, c.val, c.pit = c.pos[:0], c.val[:0], c.pit[:0]
+	for i, tk := range tokens {
+		if !inClass(tk, cl) {
+			continue
+		}
+		c.pos = append(c.pos, int64(i))
+		c.val = append(c.val, int64(tk.Time))
+		if tk.Pitch >= 0 {
+			c.pit = append(c.pit, tk.Pitch)
+		}
+	}
+	m := int64(len(c.pos))
+	if m == 0 {
+		return
+	}
+	P := pairCount(m, c.cfg.Pairs)
+	s.pairs[Distance] += P
+	s.pairs[Time] += P
+	countPointers(c.pos, c.cuts[Distance], s.below[Distance], &s.maxAbs[Distance])
+	countPointers(c.val, c.cuts[Time], s.below[Time], &s.maxAbs[Time])
+	s.pairs[Pitch] += countPitch(c.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
+}
+
+// countPointers adds, for each cut x ≤ 0, the number of ordered pairs (i, j) of the
+// non-decreasing values v with v[j] − v[i] < x. Such pairs have v[j] < v[i], so j < i:
+// they are causal pairs, and in bidirectional mode the counts of positive cuts follow
+// by symmetry. One pointer per cut moves forward as i does: O(len(v)) per cut.
+func countPointers(v, cuts, below []int64, maxAbs *int64) {
+	n := len(v)
+	if n == 0 {
+		return
+	}
+	span := v[n-1] - v[0]
+	*maxAbs = max(*maxAbs, span)
+	for k, x := range cuts {
+		if x <= -span {
+			continue // v[i] + x ≤ v[0]: no key lies below
+		}
+		var sum int64
+		p := 0
+		for _, vi := range v {
+			thr := vi + x
+			for v[p] < thr { // stops at p ≤ i since v[i] ≥ thr
+				p++
+			}
+			sum += int64(p)
+		}
+		below[k] += sum
+	}
+}
+
+// countPitch adds the pitch offsets of all pairs of the pitches p (in stream order) to
+// hist and returns the number of pairs. Causal mode keeps a running histogram of the
+// pitches seen so far (keys j ≤ i); bidirectional mode correlates the window's pitch
+// histogram with itself. Both cost O(len(p)·R) or O(R²) for a pitch range R ≤ 128.
+func countPitch(p []int16, mode Mode, hist *[pitchSpan]int64, maxAbs *int64) int64 {
+	if len(p) == 0 {
+		return 0
+	}
+	var h [128]int64
+	lo, hi := int(p[0]), int(p[0])
+	if mode == Causal {
+		for _, q := range p {
+			qi := int(q)
+			h[qi]++
+			lo, hi = min(lo, qi), max(hi, qi)
+			row := hist[127-qi:]
+			for b := lo; b <= hi; b++ {
+				row[b] += h[b]
+			}
+		}
+	} else {
+		for _, q := range p {
+			h[q]++
+			lo, hi = min(lo, int(q)), max(hi, int(q))
+		}
+		for a := lo; a <= hi; a++ {
+			if h[a] == 0 {
+				continue
+			}
+			row := hist[127-a:]
+			for b := lo; b <= hi; b++ {
+				row[b] += h[a] * h[b]
+			}
+		}
+	}
+	*maxAbs = max(*maxAbs, int64(hi-lo))
+	return pairCount(int64(len(p)), mode)
+}
+
+// countJoint walks every pair of pitched tokens and adds it to the time × pitch table.
+// Along a query's keys the time offset is monotone, so the time segment is found by a
+// moving index rather than a search.
+func (c *Counter) countJoint(joint []int64, tokens []tokenize.Token) {
+	segs := c.jointT.segs
+	np := c.jointP.Buckets()
+	for i, q := range tokens {
+		if q.Pitch < 0 {
+			continue
+		}
+		ti := int64(q.Time)
+		// keys j ≤ i, Δt falling as j falls
+		g := c.jointT.segment(0)
+		for j := i; j >= 0; j-- {
+			k := tokens[j]
+			if k.Pitch < 0 {
+				continue
+			}
+			d := int64(k.Time) - ti
+			for d < segs[g].Lo {
+				g--
+			}
+			joint[segs[g].Bucket*np+int(c.pitchBucket[int(k.Pitch)-int(q.Pitch)+127])]++
+		}
+		if c.cfg.Pairs == Causal {
+			continue
+		}
+		g = c.jointT.segment(0)
+		for j := i + 1; j < len(tokens); j++ {
+			k := tokens[j]
+			if k.Pitch < 0 {
+				continue
+			}
+			d := int64(k.Time) - ti
+			for d > segs[g].Hi {
+				g++
+			}
+			joint[segs[g].Bucket*np+int(c.pitchBucket[int(k.Pitch)-int(q.Pitch)+127])]++
+		}
+	}
+}

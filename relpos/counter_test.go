@@ -1,0 +1,139 @@
+package relpos
+
+import (
+	"math/rand/v2"
+	"reflect"
+	"testing"
+
+	"github.com/relshard/relshard/tokenize"
+)
+
+// randomWindow returns n tokens with non-decreasing times (steps drawn so that equal
+// times, small and large gaps all occur), some tokens without pitch, and a mix of drums,
+// pitched instruments and tokens without an instrument.
+func randomWindow(r *rand.Rand, n int) []tokenize.Token {
+	tokens := make([]tokenize.Token, n)
+	t := int32(r.IntN(1000))
+	for i := range tokens {
+		switch r.IntN(4) {
+		case 0: // same time
+		case 1:
+			t += int32(r.IntN(5))
+		case 2:
+			t += int32(r.IntN(100))
+		default:
+			t += int32(r.IntN(3000))
+		}
+		tk := tokenize.Token{ID: int32(r.IntN(400)), Time: t, MS: t, Pitch: -1, Inst: -1}
+		switch r.IntN(5) {
+		case 0: // no pitch, no instrument
+		case 1:
+			tk.Inst = tokenize.InstDrums
+			tk.Pitch = int16(35 + r.IntN(47))
+		case 2:
+			tk.Inst = int16(r.IntN(128)) // a pitched instrument's token without pitch (e.g. velocity)
+		default:
+			tk.Inst = int16(r.IntN(128))
+			tk.Pitch = int16(r.IntN(128))
+		}
+		tokens[i] = tk
+	}
+	return tokens
+}
+
+func randomSpec(r *rand.Rand) SchemeSpec {
+	switch r.IntN(3) {
+	case 0:
+		return SchemeSpec{Scheme: TypeLinear, Width: 1 + r.IntN(300), Clip: clipPtr(r.IntN(40))}
+	case 1:
+		b := 4 + 2*r.IntN(40)
+		s := SchemeSpec{Scheme: TypeLog, Buckets: b, Max: b + r.IntN(5000)}
+		if r.IntN(2) == 0 {
+			s.Direction = Bidirectional
+		} else {
+			s.Direction = Causal
+		}
+		return s
+	}
+	n := 2 + r.IntN(20)
+	e := make([]int64, n)
+	v := int64(-r.IntN(5000))
+	for i := range e {
+		e[i] = v
+		v += 1 + int64(r.IntN(800))
+	}
+	return SchemeSpec{Scheme: TypeEdges, Edges: e}
+}
+
+func randomConfig(r *rand.Rand) Config {
+	cfg := DefaultConfig()
+	if r.IntN(2) == 0 {
+		cfg.Pairs = Bidirectional
+	}
+	for _, p := range []*[]SchemeSpec{&cfg.Distance, &cfg.Time, &cfg.Pitch} {
+		*p = nil
+		for range 1 + r.IntN(3) {
+			*p = append(*p, randomSpec(r))
+		}
+	}
+	cfg.Joint = r.IntN(2) == 0
+	cfg.Budget = r.IntN(3) * 33
+	return cfg
+}
+
+// TestCountMatchesNaive is the property test of the fast counting: on random windows and
+// random configs, the counts of every scheme equal those of the O(L²) enumeration.
+func TestCountMatchesNaive(t *testing.T) {
+	r := rand.New(rand.NewPCG(1, 2))
+	for iter := range 300 {
+		cfg := randomConfig(r)
+		c, err := NewCounter(cfg)
+		if err != nil {
+			t.Fatalf("iter %d: %v", iter, err)
+		}
+		tally := c.NewTally()
+		var want Counts
+		for w := range 1 + r.IntN(3) {
+			tokens := randomWindow(r, r.IntN(90))
+			if err := c.Count(tally, tokens); err != nil {
+				t.Fatal(err)
+			}
+			one, err := c.CountNaive(tokens)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if w == 0 {
+				want = one
+			} else {
+				want.add(one)
+			}
+		}
+		got := c.Counts(tally)
+		if !reflect.DeepEqual(got, want) {
+			t.Fatalf("iter %d (%s pairs): fast counts differ from naive\n got %+v\nwant %+v", iter, cfg.Pairs, got, want)
+		}
+	}
+}
+
+func TestCountRejectsBadWindow(t *testing.T) {
+	c, err := NewCounter(DefaultConfig())
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tt := range []struct {
+		name   string
+		tokens []tokenize.Token
+	}{
+		{"time decreases", []tokenize.Token{{Time: 5, Pitch: -1, Inst: -1}, {Time: 4, Pitch: -1, Inst: -1}}},
+		{"pitch 128", []tokenize.Token{{Pitch: 128, Inst: -1}}},
+		{"inst 129", []tokenize.Token{{Pitch: -1, Inst: 129}}},
+	} {
+		tally := c.NewTally()
+		if err := c.Count(tally, tt.tokens); err == nil {
+			t.Errorf("%s: no error", tt.name)
+		}
+		if tally.Windows != 0 {
+			t.Errorf("%s: window counted", tt.name)
+		}
+	}
+}
