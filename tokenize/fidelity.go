@@ -25,7 +25,12 @@ type Fidelity struct {
 	// WithinBound counts matched notes inside the encoding's guarantee: performance,
 	// onset and release within shift_ms/2 and velocity in its bin; grid, onset and
 	// duration exact and velocity in its bin.
-	WithinBound  int           `json:"within_bound"`
+	WithinBound int `json:"within_bound"`
+	// OnGrid counts (grid encoding) piece notes whose onset and end fall on the grid
+	// and whose length is 1..max_duration_steps steps; OnGridExact those of them
+	// recovered with onset, duration and key exact, which the encoding guarantees.
+	OnGrid       int           `json:"on_grid,omitempty"`
+	OnGridExact  int           `json:"on_grid_exact,omitempty"`
 	OnsetErrors  []ErrorBucket `json:"onset_errors"`   // onset error distribution over matched notes
 	MaxOnsetMS   float64       `json:"max_onset_ms"`   // largest onset error
 	MeanOnsetMS  float64       `json:"mean_onset_ms"`  // mean onset error
@@ -57,6 +62,7 @@ type fnote struct {
 	on, off   float64 // seconds
 	vel       uint8
 	onQ, offQ int64 // grid: ticks scaled to a common resolution; performance unused
+	onGrid    bool
 }
 
 // Fidelity encodes the identity variant of p, decodes it and pairs the decoded notes
@@ -92,6 +98,11 @@ func (e *Encoder) Fidelity(p *ingest.Piece) (Fidelity, error) {
 			fn.on, fn.off = e.clock.seconds(float64(n.StartTick)), e.clock.seconds(float64(n.EndTick))
 			// Common resolution: ticks × grid steps per quarter, so a step is tpq units.
 			fn.onQ, fn.offQ = n.StartTick*gpq, n.EndTick*gpq
+			steps := (fn.offQ - fn.onQ) / tpq
+			fn.onGrid = metricGrid && fn.onQ%tpq == 0 && fn.offQ%tpq == 0 && steps >= 1 && steps <= int64(e.cfg.MaxDurationSteps)
+			if fn.onGrid {
+				f.OnGrid++
+			}
 		}
 		orig = append(orig, fn)
 	}
@@ -148,6 +159,16 @@ func (e *Encoder) Fidelity(p *ingest.Piece) (Fidelity, error) {
 			}
 			continue
 		}
+		// Pair each decoded note with the nearest piece note of its key: a note merged
+		// into another is lost, not matched to the next decoded note.
+		if i+1 < len(orig) && sameKey(orig[i+1], dn) && math.Abs(orig[i+1].on-dn.on) < math.Abs(o.on-dn.on) {
+			i++
+			continue
+		}
+		if j+1 < len(dec) && sameKey(o, dec[j+1]) && math.Abs(dec[j+1].on-o.on) < math.Abs(dn.on-o.on) {
+			j++
+			continue
+		}
 		i++
 		j++
 		f.Matched++
@@ -173,6 +194,9 @@ func (e *Encoder) Fidelity(p *ingest.Piece) (Fidelity, error) {
 			timing = onErr <= 0.5 && offErr <= 0.5
 		default:
 			timing = onErr <= 0.5 && offErr <= 0.5
+		}
+		if timing && o.onGrid {
+			f.OnGridExact++
 		}
 		if timing {
 			f.ExactTiming++
@@ -219,3 +243,5 @@ func abs64(x int64) int64 {
 	}
 	return x
 }
+
+func sameKey(a, b fnote) bool { return a.drum == b.drum && a.pitch == b.pitch }
