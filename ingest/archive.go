@@ -149,7 +149,7 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 			e.load = func() ([]byte, error) {
 				rc, err := zf.Open()
 				if err != nil {
-					return nil, fmt.Errorf("zip entry: %w", err)
+					return nil, fmt.Errorf("zip entry: %w: %w", err, ErrBadArchive)
 				}
 				defer rc.Close()
 				// archive/zip also fails an entry that inflates past its declared size.
@@ -159,7 +159,7 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 					if errors.Is(err, ErrEntryTooLarge) {
 						return nil, err
 					}
-					return nil, fmt.Errorf("zip entry: %w", err)
+					return nil, fmt.Errorf("zip entry: %w: %w", err, ErrBadArchive)
 				}
 				return data, nil
 			}

@@ -58,9 +58,9 @@ const hashLen = 16
 // hashPiece fills p.MusicalHash and p.TransposedHash.
 func (h *pieceHasher) hashPiece(p *Piece) {
 	// Onsets are num*scale/den quarter notes (or seconds for SMPTE).
-	scale, den := int64(1), int64(p.TicksPerQuarter)
+	scale, den, unit := int64(1), int64(p.TicksPerQuarter), byte('q')
 	if p.SMPTEFPS > 0 {
-		scale, den = 100, int64(math.Round(p.SMPTEFPS*100))*int64(max(p.TicksPerFrame, 1))
+		scale, den, unit = 100, int64(math.Round(p.SMPTEFPS*100))*int64(max(p.TicksPerFrame, 1)), 's'
 	}
 	if den <= 0 {
 		den = 1
@@ -94,6 +94,7 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	h.musical.Reset()
 	h.transpo.Reset()
 	h.buf = append(h.buf[:0], hashVersion...)
+	h.buf = append(h.buf, unit) // quarter notes or seconds
 	h.buf = binary.AppendUvarint(h.buf, uint64(len(h.keys)))
 	h.musical.Write(h.buf)
 	h.transpo.Write(h.buf)

@@ -1,0 +1,218 @@
+package ingest
+
+import (
+	"archive/tar"
+	"archive/zip"
+	"bytes"
+	"encoding/binary"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+)
+
+// fxZipLying writes a zip whose one stored entry claims a smaller uncompressed size than
+// it has (a classic zip bomb trick): CreateRaw takes the sizes as given.
+func fxZipLying(t testing.TB, name string, data []byte, claimed uint64) []byte {
+	t.Helper()
+	var buf bytes.Buffer
+	zw := zip.NewWriter(&buf)
+	w, err := zw.CreateRaw(&zip.FileHeader{Name: name, Method: zip.Store, CompressedSize64: uint64(len(data)), UncompressedSize64: claimed})
+	if err != nil {
+		t.Fatal(err)
+	}
+	w.Write(data)
+	if err := zw.Close(); err != nil {
+		t.Fatal(err)
+	}
+	return buf.Bytes()
+}
+
+// TestHostileArchives: every hostile entry is skipped with its reason, and archives over
+// the caps are refused as one record; nothing is written anywhere.
+func TestHostileArchives(t *testing.T) {
+	tune := fxSMF(t, 96, false, fxTune(96, 0))
+	lim := Limits{MaxEntries: 4, MaxEntrySize: 64 << 10, MaxTotalSize: 256 << 10, MaxBuffered: 1 << 10}
+	big := make([]byte, 100<<10)
+	many := []fxTarEntry{{name: "1.mid", data: tune}, {name: "2.mid", data: tune}, {name: "3.mid", data: tune}, {name: "4.mid", data: tune}, {name: "5.mid", data: tune}}
+	var manyZip []fxZipEntry
+	for _, e := range many {
+		manyZip = append(manyZip, fxZipEntry{name: e.name, data: e.data})
+	}
+	tests := []struct {
+		name string // archive file name
+		data []byte
+		want []outcome
+	}{
+		{"names.zip", fxZip(t,
+			fxZipEntry{name: "../up.mid", data: tune},
+			fxZipEntry{name: "/abs.mid", data: tune},
+			fxZipEntry{name: `a\..\..\win.mid`, data: tune},
+			fxZipEntry{name: "C:/drive.mid", data: tune},
+		), []outcome{
+			{"../up.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
+			{"/abs.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
+			{"C:/drive.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
+			{`a\..\..\win.mid`, StatusSkipped, ErrUnsafePath.Error(), "", ""},
+		}},
+		{"links.zip", fxZip(t,
+			fxZipEntry{name: "link.mid", data: []byte("/etc/passwd"), mode: os.ModeSymlink | 0o777},
+			fxZipEntry{name: "ok.mid", data: tune},
+		), []outcome{
+			{"link.mid", StatusSkipped, ErrLinkEntry.Error(), "", ""},
+			{"ok.mid", StatusOK, "", "", ""},
+		}},
+		{"bomb.zip", fxZip(t,
+			fxZipEntry{name: "big.mid", data: big},
+			fxZipEntry{name: "big.mid.gz", data: fxGzip(t, make([]byte, 2<<20))},
+		), []outcome{
+			{"big.mid", StatusSkipped, ErrEntryTooLarge.Error(), "", ""},
+			{"big.mid.gz", StatusSkipped, ErrTooLarge.Error(), "", ""}, // over MaxFileSize once gunzipped
+		}},
+		{"lying.zip", fxZipLying(t, "liar.mid", big, 100), []outcome{
+			{"liar.mid", StatusSkipped, ErrBadArchive.Error(), "", ""}, // archive/zip checks the size it inflates
+		}},
+		{"many.zip", fxZip(t, manyZip...), []outcome{{"", StatusSkipped, ErrTooManyEntries.Error(), "", ""}}},
+		{"total.zip", fxZip(t,
+			fxZipEntry{name: "a.bin", data: big}, fxZipEntry{name: "b.bin", data: big}, fxZipEntry{name: "c.bin", data: big},
+		), []outcome{{"", StatusSkipped, ErrArchiveTooLarge.Error(), "", ""}}},
+		{"garbage.zip", []byte("PK\x03\x04 this is not a zip"), []outcome{{"", StatusSkipped, ErrBadArchive.Error(), "", ""}}},
+		{"entries.tar", fxTar(t, false,
+			fxTarEntry{name: "../../up.mid", data: tune},
+			fxTarEntry{name: "/abs.mid", data: tune},
+			fxTarEntry{name: "sym.mid", typ: tar.TypeSymlink, link: "../../etc/passwd"},
+			fxTarEntry{name: "hard.mid", typ: tar.TypeLink, link: "ok.mid"},
+			fxTarEntry{name: "dev.mid", typ: tar.TypeChar},
+			fxTarEntry{name: "fifo.mid", typ: tar.TypeFifo},
+			fxTarEntry{name: "big.mid", data: big},
+			fxTarEntry{name: "bomb.mid.gz", data: fxGzip(t, make([]byte, 3<<20))},
+			fxTarEntry{name: "notgz.mid.gz", data: tune},
+			fxTarEntry{name: "ok.mid", data: tune},
+			fxTarEntry{name: "sub/", typ: tar.TypeDir},
+		), []outcome{
+			{"../../up.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
+			{"/abs.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
+			{"big.mid", StatusSkipped, ErrEntryTooLarge.Error(), "", ""},
+			{"bomb.mid.gz", StatusSkipped, ErrTooLarge.Error(), "", ""},
+			{"dev.mid", StatusSkipped, ErrSpecialEntry.Error(), "", ""},
+			{"fifo.mid", StatusSkipped, ErrSpecialEntry.Error(), "", ""},
+			{"hard.mid", StatusSkipped, ErrLinkEntry.Error(), "", ""},
+			{"notgz.mid.gz", StatusSkipped, ErrNotGzip.Error(), "", ""},
+			{"ok.mid", StatusOK, "", "", ""},
+			{"sym.mid", StatusSkipped, ErrLinkEntry.Error(), "", ""},
+		}},
+		{"many.tgz", fxTar(t, true, many...), []outcome{{"", StatusSkipped, ErrTooManyEntries.Error(), "", ""}}},
+		{"total.tar.gz", fxTar(t, true, fxTarEntry{name: "a", data: big}, fxTarEntry{name: "b", data: big}, fxTarEntry{name: "c", data: big}),
+			[]outcome{{"", StatusSkipped, ErrArchiveTooLarge.Error(), "", ""}}},
+		{"cut.tar", fxTar(t, false, fxTarEntry{name: "a.mid", data: tune}, fxTarEntry{name: "b.mid", data: big[:5000]})[:2000],
+			[]outcome{
+				{"a.mid", StatusOK, "", "", ""},
+				{"b.mid", StatusSkipped, ErrBadArchive.Error(), "", ""}, // its header is there, its bytes are not
+				{"", StatusSkipped, ErrBadArchive.Error(), "", ""},      // the damage, after what could be read
+			}},
+		{"cut.tgz", fxTar(t, true, fxTarEntry{name: "a.mid", data: tune})[:30], []outcome{{"", StatusSkipped, ErrBadArchive.Error(), "", ""}}},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			dir := t.TempDir()
+			p := filepath.Join(dir, tt.name)
+			if err := os.WriteFile(p, tt.data, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			opts := DefaultOptions()
+			opts.MaxFileSize = 1 << 20
+			opts.Limits = lim
+			if tt.name == "entries.tar" {
+				opts.Limits.MaxEntries = 20
+			}
+			got := scanAll(t, []Source{{Path: p}}, opts)
+			if g := outcomes(got); !reflect.DeepEqual(g, tt.want) {
+				t.Errorf("got %s\nwant %s", fmtOutcomes(g), fmtOutcomes(tt.want))
+			}
+			for _, r := range got {
+				if r.Record.Status == StatusSkipped && r.Record.Reason == "" {
+					t.Errorf("%q: skipped without a reason", r.Record.Path)
+				}
+			}
+			// Nothing was extracted: the folder still holds only the archive.
+			if ents, _ := os.ReadDir(dir); len(ents) != 1 {
+				t.Errorf("folder holds %d files after the scan", len(ents))
+			}
+		})
+	}
+}
+
+// TestTarSortedMultiPass reads a tar whose entries are in reverse order with a buffer
+// cap smaller than the entries, so that several passes are needed: the entries still come
+// out sorted, each read once.
+func TestTarSortedMultiPass(t *testing.T) {
+	var entries []fxTarEntry
+	var want []outcome
+	for i := 9; i >= 0; i-- {
+		name := string(rune('a'+i)) + ".mid"
+		entries = append(entries, fxTarEntry{name: name, data: fxSMF(t, 96, false, []fxNote{{0, 96, uint8(40 + 3*i), 64, 0}, {96, 96 * uint32(i+1), 50, 64, 0}})})
+	}
+	for i := 0; i <= 9; i++ {
+		want = append(want, outcome{string(rune('a'+i)) + ".mid", StatusOK, "", "", ""})
+	}
+	for _, gz := range []bool{false, true} {
+		dir := t.TempDir()
+		p := filepath.Join(dir, "rev.tar")
+		if gz {
+			p += ".gz"
+		}
+		if err := os.WriteFile(p, fxTar(t, gz, entries...), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		opts := DefaultOptions()
+		opts.Limits.MaxBuffered = 150 // about two entries per pass
+		got := scanAll(t, []Source{{Path: p}}, opts)
+		if g := outcomes(got); !reflect.DeepEqual(g, want) {
+			t.Errorf("gzip %v: got %s\nwant %s", gz, fmtOutcomes(g), fmtOutcomes(want))
+		}
+	}
+}
+
+func TestSafeEntryName(t *testing.T) {
+	tests := []struct {
+		name string
+		want bool
+	}{
+		{"a.mid", true},
+		{"dir/a.mid", true},
+		{"./a.mid", true},
+		{"a..b.mid", true},
+		{"", false},
+		{"/a.mid", false},
+		{`\a.mid`, false},
+		{"../a.mid", false},
+		{"dir/../../a.mid", false},
+		{`dir\..\a.mid`, false},
+		{"c:a.mid", false},
+		{"a\x00.mid", false},
+	}
+	for _, tt := range tests {
+		if got := safeEntryName(tt.name); got != tt.want {
+			t.Errorf("safeEntryName(%q) = %v, want %v", tt.name, got, tt.want)
+		}
+	}
+}
+
+// TestZipEntryCountBeforeAlloc: a zip end record claiming 65,535 entries in a tiny file
+// is refused by archive/zip before anything is allocated for them.
+func TestZipEntryCountBeforeAlloc(t *testing.T) {
+	// End of central directory record (PKWARE APPNOTE.TXT, section 4.3.16).
+	eocd := make([]byte, 22)
+	binary.LittleEndian.PutUint32(eocd, 0x06054b50)
+	binary.LittleEndian.PutUint16(eocd[8:], 0xFFFF)
+	binary.LittleEndian.PutUint16(eocd[10:], 0xFFFF)
+	binary.LittleEndian.PutUint32(eocd[12:], 0xFFFFFF)
+	dir := t.TempDir()
+	p := filepath.Join(dir, "claims.zip")
+	os.WriteFile(p, eocd, 0o644)
+	got := scanAll(t, []Source{{Path: p}}, DefaultOptions())
+	if len(got) != 1 || got[0].Record.Path != "" || got[0].Record.Status != StatusSkipped || !strings.Contains(got[0].Record.Reason, "zip") {
+		t.Errorf("got %+v", outcomes(got))
+	}
+}
