@@ -343,4 +343,3 @@ func (d *deduper) mark(r *Result, of string, kind DuplicateKind) {
 	r.Record.Status = StatusDuplicate
 	r.Pieces = nil
 }
-
