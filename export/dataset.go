@@ -17,19 +17,19 @@ import (
 // are the same for every worker count. Memory is bounded by one open shard per
 // split plus one shard per writing worker.
 type datasetWriter struct {
-	dir      string
-	part     Part
-	rows     int64 // shard row target, or 0
-	bytes    int64 // shard payload target when rows is 0
-	opt      ShardOptions
-	g        *errgroup.Group
-	ctx      context.Context
-	slots    chan struct{}
-	open     map[string]*openShard
-	seq      map[string]int
-	onShard  func(Shard) // called after each shard is written, serialized
-	mu       sync.Mutex
-	shards   []numbered
+	dir     string
+	part    Part
+	rows    int64 // shard row target, or 0
+	bytes   int64 // shard payload target when rows is 0
+	opt     ShardOptions
+	g       *errgroup.Group
+	ctx     context.Context
+	slots   chan struct{}
+	open    map[string]*openShard
+	seq     map[string]int
+	onShard func(Shard) // called after each shard is written, serialized
+	mu      sync.Mutex
+	shards  []numbered
 }
 
 type numbered struct {
@@ -155,4 +155,3 @@ func withSplit(meta map[string]string, split string) map[string]string {
 	m[MetaSplit] = split
 	return m
 }
-

@@ -1,0 +1,293 @@
+package export
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"runtime"
+	"sync"
+
+	"golang.org/x/sync/errgroup"
+
+	"github.com/relshard/relshard/ingest"
+	"github.com/relshard/relshard/tokenize"
+)
+
+// Options are the settings of one run that do not change its output.
+type Options struct {
+	// Out is the dataset folder.
+	Out string
+	// Workers bounds the files parsed, the pieces encoded and the shards written at
+	// once; 0 means runtime.NumCPU(). The output is the same for every value.
+	Workers int
+	// Part selects a deterministic slice of the pieces (by content hash); the zero
+	// Part is the whole corpus. A part run writes shards named for its part and a
+	// partial manifest; Merge combines the parts.
+	Part Part
+	// Overwrite allows replacing a dataset (or unfinished run) of another config in
+	// Out, removing only the files it made.
+	Overwrite bool
+	// Licenses maps dataset names to the licence or provenance text listed in the
+	// manifest.
+	Licenses map[string]string
+	// ToolVersion is recorded in the manifest and the shards' footers.
+	ToolVersion string
+	// Progress, when set, is called after each input file and each written shard,
+	// never concurrently.
+	Progress func(Progress)
+}
+
+// Progress counts the work done so far.
+type Progress struct {
+	Files   int64 // input files accounted for
+	Windows int64 // rows handed to the shard writers
+	Shards  int64 // shards written
+}
+
+// Run exports a corpus: it scans the sources (ingest.Scan), encodes each kept
+// piece of this part into windows (tokenize), counts their relative-position
+// coverage (relpos), writes the windows as Parquet shards per split, and writes
+// the manifest last. Every input file is listed in the manifest exactly once.
+//
+// Run is crash-safe and idempotent: shards and manifest appear only complete, under
+// their final names; running again with the same config finishes an interrupted run
+// and gives byte-identical files, whatever the worker count.
+func Run(ctx context.Context, sources []ingest.Source, cfg Config, opt Options) (*Manifest, error) {
+	cfg = cfg.Resolved()
+	if err := cfg.Validate(); err != nil {
+		return nil, err
+	}
+	if err := opt.Part.Validate(); err != nil {
+		return nil, err
+	}
+	if opt.Out == "" {
+		return nil, errors.New("export: no output folder")
+	}
+	workers := opt.Workers
+	if workers <= 0 {
+		workers = runtime.NumCPU()
+	}
+	enc, err := tokenize.NewEncoder(cfg.Tokens)
+	if err != nil {
+		return nil, err
+	}
+	vocab, err := json.Marshal(enc.Vocab())
+	if err != nil {
+		return nil, fmt.Errorf("encode vocabulary: %w", err)
+	}
+	cov, err := newCoverage(cfg)
+	if err != nil {
+		return nil, err
+	}
+	buckets, err := cov.tables()
+	if err != nil {
+		return nil, err
+	}
+	var mu sync.Mutex
+	var prog Progress
+	report := func(f func(*Progress)) {
+		if opt.Progress == nil {
+			return
+		}
+		mu.Lock()
+		defer mu.Unlock()
+		f(&prog)
+		opt.Progress(prog)
+	}
+	sp := outputSpec{
+		dir: opt.Out, cfg: cfg, part: opt.Part, overwrite: opt.Overwrite, workers: workers,
+		toolVersion: opt.ToolVersion, licenses: opt.Licenses,
+		encoding: cfg.Tokens.Encoding, timeUnit: enc.TimeUnit(), vocabSize: enc.Vocab().Size(), maxLen: cfg.Tokens.MaxLen,
+		vocabulary: vocab, buckets: buckets,
+		onShard: func(Shard) { report(func(p *Progress) { p.Shards++ }) },
+	}
+	iopt := cfg.Input.Options()
+	iopt.Workers = workers
+	iopt.KeepDuplicates = cfg.Shards.KeepDuplicates
+	p := &pipeline{cfg: cfg, part: opt.Part, workers: workers, cov: cov}
+	feed := func(emit func(fileResult) error) error {
+		return p.run(ctx, sources, iopt, func(fr fileResult) error {
+			if err := emit(fr); err != nil {
+				return err
+			}
+			report(func(p *Progress) { p.Files++; p.Windows += int64(len(fr.rows)) })
+			return nil
+		})
+	}
+	return writeOutput(ctx, sp, feed, cov.summary)
+}
+
+// pipeline turns scan results into rows on a pool of workers and delivers them in
+// scan order.
+type pipeline struct {
+	cfg     Config
+	part    Part
+	workers int
+	cov     *coverage
+}
+
+func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest.Options, emit func(fileResult) error) error {
+	type job struct {
+		seq int
+		r   *ingest.Result
+	}
+	type done struct {
+		seq int
+		fr  fileResult
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	g, gctx := errgroup.WithContext(ctx)
+	// inFlight bounds the files between the scan and emit, and so the reorder buffer.
+	inFlight := make(chan struct{}, 2*p.workers)
+	jobs := make(chan job)
+	results := make(chan done, p.workers)
+	g.Go(func() error {
+		defer close(jobs)
+		seq := 0
+		return ingest.Scan(gctx, sources, iopt, func(r *ingest.Result) error {
+			select {
+			case inFlight <- struct{}{}:
+			case <-gctx.Done():
+				return gctx.Err()
+			}
+			select {
+			case jobs <- job{seq, r}:
+				seq++
+				return nil
+			case <-gctx.Done():
+				return gctx.Err()
+			}
+		})
+	})
+	var wg sync.WaitGroup
+	for range p.workers {
+		wg.Add(1)
+		g.Go(func() error {
+			defer wg.Done()
+			enc, err := tokenize.NewEncoder(p.cfg.Tokens)
+			if err != nil {
+				return err
+			}
+			cw, err := p.cov.worker()
+			if err != nil {
+				return err
+			}
+			defer p.cov.done(cw)
+			for j := range jobs {
+				fr, err := p.process(enc, cw, j.r)
+				if err != nil {
+					return err
+				}
+				select {
+				case results <- done{j.seq, fr}:
+				case <-gctx.Done():
+					return gctx.Err()
+				}
+			}
+			return nil
+		})
+	}
+	go func() {
+		wg.Wait()
+		close(results)
+	}()
+	pending := map[int]fileResult{}
+	next := 0
+	var stopErr error
+	for d := range results {
+		if stopErr != nil {
+			continue // drain so that the workers end
+		}
+		pending[d.seq] = d.fr
+		for {
+			fr, ok := pending[next]
+			if !ok {
+				break
+			}
+			delete(pending, next)
+			next++
+			<-inFlight
+			if err := emit(fr); err != nil {
+				stopErr = err
+				cancel()
+				break
+			}
+		}
+	}
+	gerr := g.Wait()
+	if stopErr != nil {
+		return stopErr
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	if gerr != nil {
+		return gerr
+	}
+	if len(pending) != 0 {
+		return fmt.Errorf("export: internal error: %d results left unordered at %d", len(pending), next)
+	}
+	return nil
+}
+
+// process encodes the pieces of one scanned file that belong to this part. A file
+// whose pieces cannot be encoded is listed as skipped with the reason, and none of
+// its rows are kept.
+func (p *pipeline) process(enc *tokenize.Encoder, cw *coverageWorker, r *ingest.Result) (fileResult, error) {
+	rec := &r.Record
+	fr := fileResult{entry: FileEntry{Dataset: rec.Dataset, Source: rec.Path, Status: string(rec.Status), Reason: rec.Reason}}
+	if rec.DuplicateOf != "" {
+		fr.entry.Status = string(ingest.StatusDuplicate)
+		fr.entry.Reason = fmt.Sprintf("%s duplicate of %s", rec.DuplicateKind, rec.DuplicateOf)
+		if len(r.Pieces) > 0 {
+			fr.entry.Reason += " (kept)"
+		}
+	}
+	for i := range r.Pieces {
+		pc := &r.Pieces[i]
+		if len(pc.Notes) == 0 || !p.part.Has(pc.TransposedHash) {
+			continue
+		}
+		split := SplitOf(pc.TransposedHash, p.cfg.Shards.Splits)
+		id := fmt.Sprintf("%s#%d", rec.Key(), pc.Index)
+		before := len(fr.rows)
+		err := enc.Windows(pc, func(w tokenize.Window) error {
+			fr.rows = append(fr.rows, rowOf(w, id, rec, pc.TransposedHash, split))
+			return nil
+		})
+		if err != nil {
+			fr.rows = nil
+			fr.entry.Status = string(ingest.StatusSkipped)
+			fr.entry.Reason = fmt.Sprintf("encode piece %d: %v", pc.Index, err)
+			fr.entry.Pieces, fr.entry.Windows = 0, 0
+			return fr, nil
+		}
+		if len(fr.rows) > before {
+			fr.entry.Pieces++
+		}
+	}
+	fr.entry.Windows = int64(len(fr.rows))
+	// Counted only once the whole file encoded, so a skipped file counts nothing.
+	if err := cw.addRows(fr.rows); err != nil {
+		return fr, err
+	}
+	return fr, nil
+}
+
+// rowOf copies a window (whose tokens are valid only until the next one) into a row.
+func rowOf(w tokenize.Window, piece string, rec *ingest.FileRecord, hash, split string) Row {
+	n := len(w.Tokens)
+	ints := make([]int32, 2*n)
+	shorts := make([]int16, 2*n)
+	r := Row{
+		Tokens: ints[:n:n], Time: ints[n:], Pitch: shorts[:n:n], Inst: shorts[n:],
+		Piece: piece, Dataset: rec.Dataset, Source: rec.Path, ContentHash: hash, Split: split,
+		Window: int32(w.Index), Transpose: int32(w.Variant.Transpose), Stretch: float32(w.Variant.Stretch),
+	}
+	for i, t := range w.Tokens {
+		r.Tokens[i], r.Time[i], r.Pitch[i], r.Inst[i] = t.ID, t.Time, t.Pitch, t.Inst
+	}
+	return r
+}

@@ -1,0 +1,106 @@
+package export
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"sync"
+	"testing"
+
+	"github.com/relshard/relshard/ingest"
+	"github.com/relshard/relshard/sampledata"
+)
+
+var (
+	corpusOnce sync.Once
+	corpusDir  string
+	corpusErr  error
+)
+
+// testCorpus writes the generated demo corpus (with a few damaged files) once per
+// test binary.
+func testCorpus(t *testing.T) []ingest.Source {
+	t.Helper()
+	corpusOnce.Do(func() {
+		corpusDir, corpusErr = os.MkdirTemp("", "relshard-export-corpus-")
+		if corpusErr == nil {
+			_, corpusErr = sampledata.WriteDir(context.Background(), corpusDir, sampledata.Config{Files: 24, Damaged: 4, Seed: 7}, true)
+		}
+	})
+	if corpusErr != nil {
+		t.Fatalf("generate corpus: %v", corpusErr)
+	}
+	return []ingest.Source{{Path: corpusDir, Dataset: "demo"}}
+}
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if corpusDir != "" {
+		os.RemoveAll(corpusDir)
+	}
+	os.Exit(code)
+}
+
+// smallConfig cuts short windows and small shards, so a small corpus gives many
+// of both.
+func smallConfig() Config {
+	cfg := DefaultConfig()
+	cfg.Tokens.MaxLen = 128
+	cfg.Tokens.MinLen = 8
+	cfg.Tokens.Transpose = []int{0, 2}
+	cfg.Shards.Rows = 40
+	return cfg
+}
+
+func runExport(t *testing.T, dir string, cfg Config, opt Options) *Manifest {
+	t.Helper()
+	opt.Out = dir
+	if opt.ToolVersion == "" {
+		opt.ToolVersion = "test"
+	}
+	m, err := Run(context.Background(), testCorpus(t), cfg, opt)
+	if err != nil {
+		t.Fatalf("Run: %v", err)
+	}
+	return m
+}
+
+func TestRunDeterministicAcrossWorkers(t *testing.T) {
+	var ref map[string]string
+	for _, w := range []int{1, 2, 8} {
+		dir := t.TempDir()
+		m := runExport(t, dir, smallConfig(), Options{Workers: w})
+		mustVerify(t, dir)
+		if w == 1 {
+			if m.Totals.Windows == 0 || len(m.Shards) < 3 {
+				t.Fatalf("totals %+v with %d shards: the corpus should give several shards", m.Totals, len(m.Shards))
+			}
+			if m.Totals.FilesSkipped == 0 {
+				t.Errorf("no skipped files; the corpus has damaged ones")
+			}
+		}
+		got := treeHashes(t, dir)
+		if ref == nil {
+			ref = got
+			continue
+		}
+		if d := diffTrees(ref, got); len(d) > 0 {
+			t.Errorf("workers %d: files differ from workers 1: %v", w, d)
+		}
+	}
+}
+
+func TestRunEveryInputOnce(t *testing.T) {
+	dir := t.TempDir()
+	m := runExport(t, dir, smallConfig(), Options{Workers: 2})
+	var n int
+	filepath.WalkDir(corpusDir, func(p string, d os.DirEntry, err error) error {
+		if err == nil && !d.IsDir() {
+			n++
+		}
+		return nil
+	})
+	if len(m.Files) != n {
+		t.Errorf("manifest lists %d files, the corpus folder holds %d", len(m.Files), n)
+	}
+}
