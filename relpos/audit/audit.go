@@ -110,24 +110,17 @@ type dsAcc struct {
 	ppqs         map[string]int
 	tempoFlagged int
 	missingMeter int
-	cover        []coverAcc // one per scheme, TimeSchemes then PitchSchemes
+	tally        *relpos.Tally // coverage of every relpos scheme
 }
 
-// coverAcc counts pairs per bucket of one scheme.
-type coverAcc struct {
-	buckets []int64
-	sat     int64
-	pairs   int64
-}
-
-func newDSAcc(schemes int) *dsAcc {
+func newDSAcc(tally *relpos.Tally) *dsAcc {
 	return &dsAcc{
 		notes: newNoteStats(),
 		dt:    newHist(0, maxPairDT),
 		dp:    newHist(-maxPairDP, maxPairDP),
 		grids: map[string]int{},
 		ppqs:  map[string]int{},
-		cover: make([]coverAcc, schemes),
+		tally: tally,
 	}
 }
 
@@ -153,17 +146,7 @@ func (a *dsAcc) merge(o *dsAcc) {
 	}
 	a.tempoFlagged += o.tempoFlagged
 	a.missingMeter += o.missingMeter
-	for i := range o.cover {
-		c, d := &a.cover[i], &o.cover[i]
-		if c.buckets == nil && d.buckets != nil {
-			c.buckets = make([]int64, len(d.buckets))
-		}
-		for b, n := range d.buckets {
-			c.buckets[b] += n
-		}
-		c.sat += d.sat
-		c.pairs += d.pairs
-	}
+	a.tally.Add(o.tally)
 }
 
 // Auditor accumulates pieces into per-dataset distributions. It is not safe for
@@ -171,8 +154,7 @@ func (a *dsAcc) merge(o *dsAcc) {
 type Auditor struct {
 	cfg      Config
 	enc      *tokenize.Encoder
-	time     []*relpos.Scheme
-	pitch    []*relpos.Scheme
+	counter  *relpos.Counter
 	datasets map[string]*dsAcc
 	files    []File
 	seq      int64
@@ -195,26 +177,20 @@ func New(cfg Config) (*Auditor, error) {
 	if err != nil {
 		return nil, fmt.Errorf("audit: %w", err)
 	}
-	rc := cfg.Relpos.Resolved()
-	var ts, ps []*relpos.Scheme
-	for _, k := range []relpos.Kind{relpos.Time, relpos.Pitch} {
-		for _, spec := range rc.Specs(k) {
-			sch, err := spec.Build(rc.Pairs)
-			if err != nil {
-				return nil, fmt.Errorf("audit: %s scheme %s: %w", k, spec, err)
-			}
-			if k == relpos.Time {
-				ts = append(ts, sch)
-			} else {
-				ps = append(ps, sch)
-			}
-		}
+	// Coverage is counted exactly, without the joint table or the instrument
+	// breakdown, which the audit does not show.
+	rc := cfg.Relpos
+	rc.Sample, rc.Joint = 0, false
+	off := false
+	rc.Instruments = &off
+	counter, err := relpos.NewCounter(rc)
+	if err != nil {
+		return nil, fmt.Errorf("audit: %w", err)
 	}
 	return &Auditor{
 		cfg:      cfg,
 		enc:      enc,
-		time:     ts,
-		pitch:    ps,
+		counter:  counter,
 		datasets: map[string]*dsAcc{},
 		fdt:      newHist(0, maxPairDT),
 		fdp:      newHist(-maxPairDP, maxPairDP),
@@ -224,7 +200,7 @@ func New(cfg Config) (*Auditor, error) {
 func (a *Auditor) dataset(name string) *dsAcc {
 	d := a.datasets[name]
 	if d == nil {
-		d = newDSAcc(len(a.time) + len(a.pitch))
+		d = newDSAcc(a.counter.NewTally())
 		a.datasets[name] = d
 	}
 	return d
@@ -269,8 +245,7 @@ func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) err
 		err = a.enc.WindowsOf(a.stream, tokenize.Identity, func(w tokenize.Window) error {
 			f.Windows++
 			a.pc.window(w.Tokens, a.fdt, a.fdp)
-			a.cover(d, w.Tokens)
-			return nil
+			return a.counter.Count(d.tally, w.Tokens)
 		})
 	}
 	if err != nil {
@@ -313,13 +288,6 @@ func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) err
 func resetHist(h *Hist) {
 	clear(h.Counts)
 	*h = Hist{Lo: h.Lo, Counts: h.Counts, Min: math.MaxInt64, Max: math.MinInt64}
-}
-
-// cover counts the window's token pairs per bucket of each scheme with relpos's
-// exact counter.
-func (a *Auditor) cover(d *dsAcc, toks []tokenize.Token) {
-	_ = d
-	_ = toks
 }
 
 // Merge adds everything b has accumulated to a. b must have the same config.
@@ -377,6 +345,13 @@ func (a *Auditor) Report() *Report {
 			ds.DrumShare = float64(acc.drums) / float64(acc.noteN)
 		}
 		r.Datasets = append(r.Datasets, ds)
+		r.Coverage = append(r.Coverage, a.coverage(n, acc.tally)...)
+	}
+	for _, s := range a.counter.Schemes(relpos.Time) {
+		r.Schemes = append(r.Schemes, timeScheme(s))
+	}
+	for _, s := range a.counter.Schemes(relpos.Pitch) {
+		r.Schemes = append(r.Schemes, pitchScheme(s))
 	}
 	r.Files = slices.Clone(a.files)
 	slices.SortFunc(r.Files, func(x, y File) int { return cmp.Compare(x.seq, y.seq) })

@@ -5,6 +5,7 @@ import (
 	"reflect"
 	"testing"
 
+	"github.com/relshard/relshard/relpos"
 	"github.com/relshard/relshard/tokenize"
 )
 
@@ -113,5 +114,29 @@ func BenchmarkDetectGrid(b *testing.B) {
 	b.ReportAllocs()
 	for b.Loop() {
 		DetectGrid(onsets, 480, cfg)
+	}
+}
+
+func TestSchemeEdges(t *testing.T) {
+	// Linear clipping of Shaw et al. 2018 with width 10 and clip 3: bucket =
+	// clip(trunc(Δ/10), −3, 3), so offsets −9..9 share bucket 0 (trunc toward zero),
+	// −19..−10 the next, and from −40 on offsets saturate.
+	s, err := relpos.Linear(10, 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := timeScheme(s)
+	want := Scheme{Name: s.Name, Kind: "time", Edges: []float64{9.5, 19.5, 29.5, 39.5}, Clip: []float64{39.5}}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("timeScheme = %+v, want %+v", got, want)
+	}
+	p, err := relpos.Linear(1, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	gotP := pitchScheme(p)
+	wantP := Scheme{Name: p.Name, Kind: "pitch", Edges: []float64{-2.5, -1.5, -0.5, 0.5, 1.5, 2.5}, Clip: []float64{-2.5, 2.5}}
+	if !reflect.DeepEqual(gotP, wantP) {
+		t.Errorf("pitchScheme = %+v, want %+v", gotP, wantP)
 	}
 }
