@@ -19,10 +19,10 @@ type Config struct {
 	Tokenize tokenize.Config
 	// Relpos gives the bucket schemes: its time and pitch schemes are drawn on the Δt
 	// and Δp charts, and their coverage is reported per dataset.
-	Relpos   relpos.Config
-	Grid     GridConfig
-	Tempo    TempoRange
-	Outlier  OutlierConfig
+	Relpos  relpos.Config
+	Grid    GridConfig
+	Tempo   TempoRange
+	Outlier OutlierConfig
 	// Scan is handed to ingest.Scan by Run.
 	Scan ingest.Options
 	// ByFolder makes each top-level folder of a single unnamed source its own dataset
