@@ -23,9 +23,19 @@ package ingest
 
 const noKey = 0 // empty slot in the key tables; slots hold note index + 1
 
+// rawNote is a note as paired, before sorting; Parse expands it into a Note with
+// seconds and program while merging the tracks. Half the size of a Note, so the
+// pairing and merge passes move less memory.
+type rawNote struct {
+	StartTick, EndTick int64
+	Track              int32
+	Pitch, Velocity    uint8
+	Channel            uint8
+}
+
 // pairer pairs the note events of one track into notes appended to buf.
 type pairer struct {
-	buf     []Note
+	buf     []rawNote
 	open    [numChannels * numKeys]int32 // sounding note per (channel, key), index+1
 	held    [numChannels * numKeys]int32 // note kept by the pedal per (channel, key), index+1
 	nopen   int
@@ -50,14 +60,13 @@ func (p *pairer) noteOn(ch, key, vel uint8, tick int64) {
 		}
 		p.held[k] = noKey
 	}
-	p.buf = append(p.buf, Note{
+	p.buf = append(p.buf, rawNote{
 		StartTick: tick,
 		EndTick:   -1,
 		Pitch:     key,
 		Velocity:  vel,
 		Channel:   ch,
-		Drum:      ch == drumChannel,
-		Track:     p.track,
+		Track:     int32(p.track),
 	})
 	p.open[k] = int32(len(p.buf))
 	p.nopen++
@@ -131,7 +140,7 @@ func (p *pairer) endTrack(tick int64) {
 // sortRun puts the notes of one track, which are in StartTick order, in
 // (StartTick, Channel, Pitch, EndTick, Velocity) order. Ties at one tick are few
 // and short, so an insertion sort is linear in practice.
-func sortRun(ns []Note) {
+func sortRun(ns []rawNote) {
 	for i := 1; i < len(ns); i++ {
 		if !noteLess(&ns[i], &ns[i-1]) {
 			continue
@@ -146,7 +155,7 @@ func sortRun(ns []Note) {
 	}
 }
 
-func noteLess(a, b *Note) bool {
+func noteLess(a, b *rawNote) bool {
 	if a.StartTick != b.StartTick {
 		return a.StartTick < b.StartTick
 	}
@@ -167,52 +176,84 @@ func noteLess(a, b *Note) bool {
 
 // mergeRuns merges the sorted runs src[bounds[i]:bounds[i+1]], which are in track
 // order, into dst (len(dst) == len(src)) by StartTick; ties keep run order, so dst
-// is in (StartTick, Track, Channel, Pitch) order.
-func mergeRuns(dst, src []Note, bounds []int) {
-	type head struct{ pos, end int }
-	var small [32]head
-	heads := small[:0]
+// is in (StartTick, Track, Channel, Pitch) order. It is a heap merge that moves
+// whole stretches of a run at once: the root run may go on while it stays below
+// both children of the root.
+func mergeRuns(dst []Note, src []rawNote, bounds []int, em *emitter) {
+	var small [32]runHead
+	h := small[:0]
 	for i := 0; i+1 < len(bounds); i++ {
 		if bounds[i] < bounds[i+1] {
-			heads = append(heads, head{bounds[i], bounds[i+1]})
+			h = append(h, runHead{tick: src[bounds[i]].StartTick, run: i, pos: bounds[i], end: bounds[i+1]})
 		}
+	}
+	// runs are appended in run order with arbitrary ticks: heapify
+	for i := len(h)/2 - 1; i >= 0; i-- {
+		siftDown(h, i)
 	}
 	out := 0
-	for len(heads) > 1 {
-		best := 0
-		bt := src[heads[0].pos].StartTick
-		for j := 1; j < len(heads); j++ {
-			if t := src[heads[j].pos].StartTick; t < bt {
-				best, bt = j, t
+	for len(h) > 1 {
+		r := &h[0]
+		// the next head to beat: the smaller child of the root
+		c := 1
+		if len(h) > 2 && h[2].before(&h[1]) {
+			c = 2
+		}
+		next := h[c]
+		q := r.pos
+		for {
+			em.put(&dst[out], &src[q])
+			out++
+			q++
+			if q == r.end {
+				break
+			}
+			t := src[q].StartTick
+			if t > next.tick || (t == next.tick && r.run > next.run) {
+				break
 			}
 		}
-		h := &heads[best]
-		// copy the whole stretch of this run that precedes every other head
-		limit := int64(1<<63 - 1)
-		for j := range heads {
-			if j == best {
-				continue
-			}
-			t := src[heads[j].pos].StartTick
-			if j < best {
-				t-- // earlier runs win ties: stop before their tick
-			}
-			if t < limit {
-				limit = t
-			}
+		if q == r.end {
+			h[0] = h[len(h)-1]
+			h = h[:len(h)-1]
+		} else {
+			r.pos = q
+			r.tick = src[q].StartTick
 		}
-		e := h.pos + 1
-		for e < h.end && src[e].StartTick <= limit {
-			e++
-		}
-		out += copy(dst[out:], src[h.pos:e])
-		h.pos = e
-		if h.pos == h.end {
-			heads = append(heads[:best], heads[best+1:]...)
+		siftDown(h, 0)
+	}
+	if len(h) == 1 {
+		for q := h[0].pos; q < h[0].end; q++ {
+			em.put(&dst[out], &src[q])
+			out++
 		}
 	}
-	if len(heads) == 1 {
-		copy(dst[out:], src[heads[0].pos:heads[0].end])
+}
+
+// runHead is the next unmerged note of one run.
+type runHead struct {
+	tick          int64
+	run, pos, end int
+}
+
+func (a *runHead) before(b *runHead) bool {
+	return a.tick < b.tick || (a.tick == b.tick && a.run < b.run)
+}
+
+func siftDown(h []runHead, i int) {
+	for {
+		c := 2*i + 1
+		if c >= len(h) {
+			return
+		}
+		if c+1 < len(h) && h[c+1].before(&h[c]) {
+			c++
+		}
+		if !h[c].before(&h[i]) {
+			return
+		}
+		h[i], h[c] = h[c], h[i]
+		i = c
 	}
 }
 
@@ -223,20 +264,50 @@ type progChange struct {
 	program uint8
 }
 
-// assignPrograms sets Program on notes (in StartTick order) from changes (in tick
-// order, stable by track).
-func assignPrograms(notes []Note, changes []progChange) {
-	if len(changes) == 0 {
-		return
+// emitter expands raw notes, in final order, into Notes: seconds through the time
+// map (starts are non-decreasing, so a segment cursor follows them), the program in
+// effect on the channel (changes in tick order, stable by track) and the drum flag.
+type emitter struct {
+	tm    *TimeMap
+	seg   int
+	progs []progChange
+	pc    int
+	cur   [numChannels]uint8
+	zero  int
+}
+
+func (em *emitter) put(n *Note, r *rawNote) {
+	tm := em.tm
+	for em.seg+1 < len(tm.ticks) && tm.ticks[em.seg+1] <= r.StartTick {
+		em.seg++
 	}
-	var cur [numChannels]uint8
-	c := 0
-	for i := range notes {
-		n := &notes[i]
-		for c < len(changes) && changes[c].tick <= n.StartTick {
-			cur[changes[c].channel&statusChannelMask] = changes[c].program
-			c++
+	for em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
+		c := &em.progs[em.pc]
+		em.cur[c.channel&statusChannelMask] = c.program
+		em.pc++
+	}
+	e := em.seg
+	for e+1 < len(tm.ticks) && tm.ticks[e+1] <= r.EndTick {
+		e++
+		if e-em.seg > 8 {
+			e = tm.segment(r.EndTick)
+			break
 		}
-		n.Program = cur[n.Channel&statusChannelMask]
+	}
+	if r.EndTick == r.StartTick {
+		em.zero++
+	}
+	ch := r.Channel & statusChannelMask
+	*n = Note{
+		StartTick: r.StartTick,
+		EndTick:   r.EndTick,
+		Start:     tm.at(em.seg, r.StartTick),
+		End:       tm.at(e, r.EndTick),
+		Pitch:     r.Pitch,
+		Velocity:  r.Velocity,
+		Channel:   ch,
+		Program:   em.cur[ch],
+		Drum:      ch == drumChannel,
+		Track:     int(r.Track),
 	}
 }

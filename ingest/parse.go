@@ -72,7 +72,7 @@ type parser struct {
 	meters []Meter
 	keys   []Key
 	end    int64
-	warn   Warnings
+	tm     TimeMap
 
 	badMeta                         int
 	runningBase, slackBase, eotBase int
@@ -246,21 +246,14 @@ func (ps *parser) finish(h Header, index int) Piece {
 	for i := 0; i+1 < len(ps.bounds); i++ {
 		sortRun(pr.buf[ps.bounds[i]:ps.bounds[i+1]])
 	}
-	notes := make([]Note, len(pr.buf))
-	mergeRuns(notes, pr.buf, ps.bounds)
 	if len(ps.progs) > 0 {
 		slices.SortStableFunc(ps.progs, func(a, b progChange) int { return byTick(a.tick, b.tick) })
-		assignPrograms(notes, ps.progs)
 	}
-	var tm TimeMap
-	tm.build(&p)
-	tm.fillSeconds(notes)
-	zero := 0
-	for i := range notes {
-		if notes[i].EndTick == notes[i].StartTick {
-			zero++
-		}
-	}
+	ps.tm.build(&p)
+	em := emitter{tm: &ps.tm, progs: ps.progs}
+	notes := make([]Note, len(pr.buf))
+	mergeRuns(notes, pr.buf, ps.bounds, &em)
+	zero := em.zero
 	p.Notes = notes
 
 	w := p.Warnings

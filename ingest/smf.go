@@ -241,6 +241,7 @@ func (r *Reader) NextTrack() bool {
 			return false
 		}
 	}
+	r.end = 0
 	if r.track+1 >= r.hdr.Tracks {
 		r.doneAll = true
 		return false
@@ -249,14 +250,12 @@ func (r *Reader) NextTrack() bool {
 	for {
 		p := r.pos
 		if len(d)-p < chunkHeaderLen {
-			r.err = r.fail(r.track+1, len(d), errorf(ErrTruncated, "header declares %d tracks, file ends after %d", r.hdr.Tracks, r.track+1))
-			return false
+			return r.stop(r.fail(r.track+1, len(d), errorf(ErrTruncated, "header declares %d tracks, file ends after %d", r.hdr.Tracks, r.track+1)))
 		}
 		id := binary.BigEndian.Uint32(d[p:])
 		n := binary.BigEndian.Uint32(d[p+4:])
 		if uint64(n) > uint64(len(d)-p-chunkHeaderLen) {
-			r.err = r.fail(r.track+1, p+4, errorf(ErrChunkLength, "chunk length %d, %d bytes remain", n, len(d)-p-chunkHeaderLen))
-			return false
+			return r.stop(r.fail(r.track+1, p+4, errorf(ErrChunkLength, "chunk length %d, %d bytes remain", n, len(d)-p-chunkHeaderLen)))
 		}
 		r.pos = p + chunkHeaderLen
 		end := r.pos + int(n)
@@ -283,43 +282,48 @@ func (r *Reader) NextTrack() bool {
 func (r *Reader) finishTrack() {
 	r.inTrack = false
 	if r.sysexAt >= 0 {
-		r.err = r.fail(r.track, r.sysexAt, errorf(ErrUnterminatedSysEx, "SysEx not ended by F7 before end of track"))
+		r.stop(r.fail(r.track, r.sysexAt, errorf(ErrUnterminatedSysEx, "SysEx not ended by F7 before end of track")))
 		return
 	}
 	if r.eot {
-		if r.end > r.pos {
-			r.SlackBytes += r.end - r.pos
+		if r.chunkEnd > r.pos {
+			r.SlackBytes += r.chunkEnd - r.pos
 			r.SlackTracks++
 		}
 	} else {
 		r.MissingEOT++
 	}
-	r.pos = r.end
+	r.pos = r.chunkEnd
+	r.end = r.pos
+}
+
+// stop records err and makes Next and NextTrack return false from now on.
+func (r *Reader) stop(err error) bool {
+	r.err = err
+	r.end = 0
+	return false
 }
 
 // Next reads the next event of the current track. It returns false at the end of
 // the track (after End of Track, or at the end of the chunk) or on error.
 func (r *Reader) Next() bool {
-	if !r.inTrack || r.eot || r.err != nil {
-		return false
-	}
 	p, end, d := r.pos, r.end, r.data
 	if p >= end {
-		r.finishTrack()
-		// a track that is done reports false; the next NextTrack must not finish it again
+		// end of chunk, after End of Track, after an error or outside a track
+		if r.inTrack && !r.eot && r.err == nil {
+			r.finishTrack()
+		}
 		return false
 	}
 	if r.events >= r.maxEvents {
-		r.err = r.fail(r.track, p, errorf(ErrTooManyEvents, "more than %d events in one track", r.maxEvents))
-		return false
+		return r.stop(r.fail(r.track, p, errorf(ErrTooManyEvents, "more than %d events in one track", r.maxEvents)))
 	}
 	// delta time
 	vstart := p
 	var delta uint32
 	for i := 0; ; i++ {
 		if p >= end {
-			r.err = r.fail(r.track, vstart, errorf(ErrTruncated, "delta time runs past end of track chunk"))
-			return false
+			return r.stop(r.fail(r.track, vstart, errorf(ErrTruncated, "delta time runs past end of track chunk")))
 		}
 		b := d[p]
 		p++
@@ -328,13 +332,11 @@ func (r *Reader) Next() bool {
 			break
 		}
 		if i == vlqMaxBytes-1 {
-			r.err = r.fail(r.track, vstart, errorf(ErrBadVLQ, "delta time longer than %d bytes", vlqMaxBytes))
-			return false
+			return r.stop(r.fail(r.track, vstart, errorf(ErrBadVLQ, "delta time longer than %d bytes", vlqMaxBytes)))
 		}
 	}
 	if p >= end {
-		r.err = r.fail(r.track, p, errorf(ErrTruncated, "event missing after delta time"))
-		return false
+		return r.stop(r.fail(r.track, p, errorf(ErrTruncated, "event missing after delta time")))
 	}
 	ev := &r.ev
 	ev.Offset = r.base + int64(p)
@@ -344,8 +346,7 @@ func (r *Reader) Next() bool {
 	status := d[p]
 	if status < statusBit {
 		if r.running == 0 {
-			r.err = r.fail(r.track, p, ErrRunningStatus)
-			return false
+			return r.stop(r.fail(r.track, p, ErrRunningStatus))
 		}
 		if r.cancel {
 			r.RunningAfterMeta++
@@ -358,24 +359,23 @@ func (r *Reader) Next() bool {
 	switch {
 	case status < statusSysEx:
 		r.running = status
-		r.cancel = false
+		if r.cancel {
+			r.cancel = false
+		}
 		typ := status & statusTypeMask
 		if typ == statusProgram || typ == statusChanTouch {
 			if end-p < 1 {
-				r.err = r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "channel message runs past end of track chunk"))
-				return false
+				return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "channel message runs past end of track chunk")))
 			}
 			d1 := d[p]
 			if d1 >= statusBit {
-				r.err = r.fail(r.track, p, errorf(ErrBadData, "status byte %02X where a data byte belongs", d1))
-				return false
+				return r.stop(r.fail(r.track, p, errorf(ErrBadData, "status byte %02X where a data byte belongs", d1)))
 			}
 			ev.Data1, ev.Data2 = d1, 0
 			p++
 		} else {
 			if end-p < 2 {
-				r.err = r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "channel message runs past end of track chunk"))
-				return false
+				return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "channel message runs past end of track chunk")))
 			}
 			d1, d2 := d[p], d[p+1]
 			if (d1|d2)&statusBit != 0 {
@@ -383,8 +383,7 @@ func (r *Reader) Next() bool {
 				if d1 < statusBit {
 					bad, at = d2, p+1
 				}
-				r.err = r.fail(r.track, at, errorf(ErrBadData, "status byte %02X where a data byte belongs", bad))
-				return false
+				return r.stop(r.fail(r.track, at, errorf(ErrBadData, "status byte %02X where a data byte belongs", bad)))
 			}
 			ev.Data1, ev.Data2 = d1, d2
 			p += 2
@@ -392,7 +391,9 @@ func (r *Reader) Next() bool {
 		ev.Kind = KindChannel
 		ev.Status = status
 		ev.Meta = 0
-		ev.Data = nil
+		if ev.Data != nil {
+			ev.Data = nil
+		}
 	case status == statusSysEx || status == statusEscape:
 		n, q, ok := r.length(p, end)
 		if !ok {
@@ -410,8 +411,7 @@ func (r *Reader) Next() bool {
 		terminated := n > 0 && d[q+n-1] == sysExEnd
 		if status == statusSysEx {
 			if r.sysexAt >= 0 {
-				r.err = r.fail(r.track, r.sysexAt, errorf(ErrUnterminatedSysEx, "SysEx not ended by F7 before the next SysEx"))
-				return false
+				return r.stop(r.fail(r.track, r.sysexAt, errorf(ErrUnterminatedSysEx, "SysEx not ended by F7 before the next SysEx")))
 			}
 			if !terminated {
 				r.sysexAt = int(ev.Offset - r.base)
@@ -422,8 +422,7 @@ func (r *Reader) Next() bool {
 		r.cancel = true
 	case status == statusMeta:
 		if p >= end {
-			r.err = r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "meta event runs past end of track chunk"))
-			return false
+			return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "meta event runs past end of track chunk")))
 		}
 		typ := d[p]
 		n, q, ok := r.length(p+1, end)
@@ -439,10 +438,13 @@ func (r *Reader) Next() bool {
 		r.cancel = true
 		if typ == metaEndOfTrack {
 			r.eot = true
+			r.pos = p
+			r.end = p // Next returns false from now on; finishTrack counts the rest
+			r.events++
+			return true
 		}
 	default:
-		r.err = r.fail(r.track, int(ev.Offset-r.base), errorf(ErrBadStatus, "status byte %02X is not allowed in a track", status))
-		return false
+		return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrBadStatus, "status byte %02X is not allowed in a track", status)))
 	}
 	r.pos = p
 	r.events++
@@ -457,7 +459,7 @@ func (r *Reader) length(p, end int) (n, q int, ok bool) {
 	var v uint32
 	for i := 0; ; i++ {
 		if p >= end {
-			r.err = r.fail(r.track, vstart, errorf(ErrTruncated, "length runs past end of track chunk"))
+			r.stop(r.fail(r.track, vstart, errorf(ErrTruncated, "length runs past end of track chunk")))
 			return 0, 0, false
 		}
 		b := d[p]
@@ -467,12 +469,12 @@ func (r *Reader) length(p, end int) (n, q int, ok bool) {
 			break
 		}
 		if i == vlqMaxBytes-1 {
-			r.err = r.fail(r.track, vstart, errorf(ErrBadVLQ, "length longer than %d bytes", vlqMaxBytes))
+			r.stop(r.fail(r.track, vstart, errorf(ErrBadVLQ, "length longer than %d bytes", vlqMaxBytes)))
 			return 0, 0, false
 		}
 	}
 	if uint64(v) > uint64(end-p) {
-		r.err = r.fail(r.track, vstart, errorf(ErrTruncated, "length %d, %d bytes remain in track chunk", v, end-p))
+		r.stop(r.fail(r.track, vstart, errorf(ErrTruncated, "length %d, %d bytes remain in track chunk", v, end-p)))
 		return 0, 0, false
 	}
 	return int(v), p, true

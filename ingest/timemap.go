@@ -147,24 +147,3 @@ func (p *Piece) KeyAt(tick int64) (Key, bool) {
 
 // Duration returns the length of the piece in seconds: the time of EndTick.
 func (p *Piece) Duration() float64 { return p.Seconds(p.EndTick) }
-
-// fillSeconds sets Start and End of every note (notes sorted by StartTick).
-func (m *TimeMap) fillSeconds(notes []Note) {
-	seg := 0
-	for i := range notes {
-		n := &notes[i]
-		for seg+1 < len(m.ticks) && m.ticks[seg+1] <= n.StartTick {
-			seg++
-		}
-		n.Start = m.at(seg, n.StartTick)
-		e := seg
-		for e+1 < len(m.ticks) && m.ticks[e+1] <= n.EndTick {
-			e++
-			if e-seg > 8 {
-				e = m.segment(n.EndTick)
-				break
-			}
-		}
-		n.End = m.at(e, n.EndTick)
-	}
-}
