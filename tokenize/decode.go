@@ -76,9 +76,10 @@ func Decode(ids []int32, cfg Config) (*ingest.Piece, error) {
 // end token only pad tokens may follow, and pad tokens only trail. Performance
 // streams: a note-off with no sounding note is ignored and a note-on of a sounding
 // key ends it first (both counted in the piece's Warnings), notes still sounding at
-// the end end at the last time. Grid streams must be well formed (bar, then meter
-// and tempo, then increasing positions inside the bar, each note as pitch, duration,
-// velocity); anything else is an error naming the token.
+// the end end at the last time. Grid streams must be well formed (bars, increasing
+// positions inside a bar, each note as pitch, duration, velocity; meter and tempo
+// right after a bar or, as in a window's prefix, before the first bar); anything
+// else is an error naming the token.
 func (d *Decoder) Decode(ids []int32) (*ingest.Piece, error) {
 	p := &ingest.Piece{Format: 1, Warnings: ingest.Warnings{}}
 	end := len(ids)
@@ -266,7 +267,8 @@ func (d *Decoder) decodeGrid(ids []int32, p *ingest.Piece) error {
 				return d.fail(i, id, ErrSequence, "time past the limit")
 			}
 		case KindMeter, KindTempo:
-			if !inBar || pos >= 0 {
+			// Before the first bar they set up the bar it opens (a window's prefix).
+			if pos >= 0 {
 				return d.fail(i, id, ErrSequence, "meter or tempo not at a bar start")
 			}
 			if e.Kind == KindMeter {

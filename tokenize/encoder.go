@@ -146,15 +146,17 @@ func (e *Encoder) Encode(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stat
 // Variants order and windows in stream order. Window.Tokens is reused: copy it to
 // keep it. An error from yield stops the walk and is returned.
 //
-// A window holds at most max_len tokens. Windows after the first of a stream begin
-// with a short state prefix so that each decodes on its own: in the performance
-// encoding the current set-velocity; in the grid encoding the current bar, meter,
-// tempo, position and instrument. With the default stride (max_len) the stream
-// tokens of consecutive windows follow each other without gap or overlap; a smaller
-// stride overlaps them. Grid windows never split a note's pitch, duration and
-// velocity. A note whose note-on and note-off fall in different windows is cut:
-// decoded alone, the earlier window ends it at its last time and the later window
-// ignores the unmatched note-off. Windows shorter than min_len are dropped.
+// A window holds at most max_len tokens: Tokens[:Prefix] restate the state at the
+// cut, Tokens[Prefix:] are the stream from index Start on, so each window decodes on
+// its own. The performance prefix is the current set-velocity; the grid prefix is
+// the current meter and tempo, then (unless the window opens with a bar) the current
+// bar and position, then the current instrument. The first window has no prefix.
+// With the default stride (max_len) the stream parts of consecutive windows follow
+// each other without gap or overlap; a smaller stride overlaps them. Grid windows
+// never split a note's pitch, duration and velocity, nor a bar from its meter and
+// tempo. A note whose note-on and note-off fall in different windows is cut: decoded
+// alone, the earlier window ends it at its last time and the later window ignores
+// the unmatched note-off. Windows shorter than min_len (the tail) are dropped.
 func (e *Encoder) Windows(p *ingest.Piece, yield func(Window) error) error {
 	for _, v := range e.variants {
 		var err error
@@ -280,30 +282,27 @@ func (e *Encoder) prefix(w []Token, st *cutState, s []Token, start int) ([]Token
 	if st.bar.ID == 0 {
 		return w, start // before the first bar: nothing to restate
 	}
-	body := start
-	bar := st.bar
+	// Meter and tempo first: before a bar token they set up the bar it opens.
+	at := st.bar
 	if first == KindBar {
-		bar = s[start]
-		body = start + 1
+		at = s[start]
 	}
-	w = append(w, bar)
-	if st.meter.ID != 0 {
-		t := st.meter
-		t.Time, t.MS = bar.Time, bar.MS
-		w = append(w, t)
+	for _, t := range [2]Token{st.meter, st.tempo} {
+		if t.ID != 0 {
+			t.Time, t.MS = at.Time, at.MS
+			w = append(w, t)
+		}
 	}
-	if st.tempo.ID != 0 {
-		t := st.tempo
-		t.Time, t.MS = bar.Time, bar.MS
-		w = append(w, t)
-	}
-	if first != KindBar && first != KindPosition && st.pos.ID != 0 {
-		w = append(w, st.pos)
+	if first != KindBar {
+		w = append(w, st.bar)
+		if first != KindPosition && st.pos.ID != 0 {
+			w = append(w, st.pos)
+		}
 	}
 	if first != KindInst && st.inst.ID != 0 {
 		t := st.inst
 		t.Time, t.MS = w[len(w)-1].Time, w[len(w)-1].MS
 		w = append(w, t)
 	}
-	return w, body
+	return w, start
 }

@@ -1,9 +1,11 @@
 package tokenize
 
 import (
+	"cmp"
 	"errors"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -131,3 +133,23 @@ func isDecodeError(err error) bool {
 }
 
 func itoa(i int) string { return strconv.Itoa(i) }
+
+// sortNotes puts notes in ingest's order: (StartTick, Track, Channel, Pitch).
+func sortNotes(ns []ingest.Note) {
+	slices.SortStableFunc(ns, func(a, b ingest.Note) int {
+		return cmp.Or(cmp.Compare(a.StartTick, b.StartTick), cmp.Compare(a.Track, b.Track),
+			cmp.Compare(a.Channel, b.Channel), cmp.Compare(a.Pitch, b.Pitch))
+	})
+}
+
+func refGlob() ([]string, error) { return filepath.Glob(filepath.Join(refDir, "*.mid")) }
+
+// splitFields splits "label@time" words and keeps the labels.
+func splitFields(s string) []string {
+	var out []string
+	for _, f := range strings.Fields(s) {
+		l, _, _ := strings.Cut(f, "@")
+		out = append(out, l)
+	}
+	return out
+}

@@ -25,6 +25,8 @@ type Window struct {
 	Index   int // index of the window within the piece and variant
 	Variant Variant
 	Tokens  []Token // valid only until the next window is produced
-	Start   int     // index in the variant's stream of the first token the window covers
-	Prefix  int     // leading state tokens restated for this window (not from the stream at Start)
+	// Prefix is the number of leading tokens that restate the state at the cut;
+	// Tokens[Prefix:] is the stream from index Start on.
+	Prefix int
+	Start  int
 }
