@@ -44,11 +44,11 @@ type Input struct {
 	MaxSeconds        float64 `yaml:"max_seconds" json:"max_seconds"`
 	DropDrums         bool    `yaml:"drop_drums" json:"drop_drums"` // remove drum notes before filters and hashes
 	MinPitch          int     `yaml:"min_pitch" json:"min_pitch"`
-	MaxPitch          int     `yaml:"max_pitch" json:"max_pitch"`                   // 0: no upper bound
+	MaxPitch          int     `yaml:"max_pitch" json:"max_pitch"`                     // 0: no upper bound
 	MaxArchiveEntries int     `yaml:"max_archive_entries" json:"max_archive_entries"` // entries of one archive
-	MaxEntryMB        float64 `yaml:"max_entry_mb" json:"max_entry_mb"`             // decompressed bytes of one entry
-	MaxArchiveMB      float64 `yaml:"max_archive_mb" json:"max_archive_mb"`         // decompressed bytes of one archive
-	MaxBufferedMB     float64 `yaml:"max_buffered_mb" json:"max_buffered_mb"`       // tar entries held while sorting
+	MaxEntryMB        float64 `yaml:"max_entry_mb" json:"max_entry_mb"`               // decompressed bytes of one entry
+	MaxArchiveMB      float64 `yaml:"max_archive_mb" json:"max_archive_mb"`           // decompressed bytes of one archive
+	MaxBufferedMB     float64 `yaml:"max_buffered_mb" json:"max_buffered_mb"`         // tar entries held while sorting
 }
 
 // DefaultInput returns ingest's defaults in config terms.
