@@ -134,10 +134,10 @@ type Recommendation struct {
 
 // BudgetFit is the largest linear scheme of a width whose rows fit the budget.
 type BudgetFit struct {
-	Width  int      `json:"width"`
-	Clip   int      `json:"clip"`
-	Rows   int      `json:"rows"`
-	Inside float64  `json:"inside_share"`
+	Width  int       `json:"width"`
+	Clip   int       `json:"clip"`
+	Rows   int       `json:"rows"`
+	Inside float64   `json:"inside_share"`
 	CI     *Interval `json:"inside_ci,omitempty"`
 }
 
