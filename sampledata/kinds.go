@@ -102,7 +102,7 @@ func composePerformance(r *rng, ppq int64) *score {
 	bars := layoutBars(secs)
 	end := bars[len(bars)-1].end()
 
-	rh := melodyStyle{base: k.tonicBase(60), lo: 2, hi: 13, triplets: 6, restPct: 4, vel: r.between(62, 80)}
+	rh := melodyStyle{base: k.tonicBase(53), lo: 2, hi: 13, triplets: 6, restPct: 4, vel: r.between(62, 80)}
 	melody := sectionMusic(r, k, bars, secs, func(bs []bar) []note { return composeMelody(r, k, bs, rh, 7) })
 	// Right hand doubles downbeats with a chord tone a third or sixth below.
 	var rhNotes []note
@@ -497,6 +497,9 @@ func dedupTempos(ts []tempoAt) []tempoAt {
 		if len(out) > 0 && out[len(out)-1].tick == t.tick {
 			out[len(out)-1] = t
 			continue
+		}
+		if len(out) > 0 && out[len(out)-1].us == t.us {
+			continue // no change
 		}
 		out = append(out, t)
 	}

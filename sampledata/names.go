@@ -28,7 +28,7 @@ var (
 
 // makeTitle invents a title such as "Copper Heron Nocturne".
 func makeTitle(r *rng, form string) string {
-	words := []string{pick(r, titleAdjectives), pick(r, titleNouns), form}
+	words := strings.Fields(pick(r, titleAdjectives) + " " + pick(r, titleNouns) + " " + form)
 	for i, w := range words {
 		words[i] = strings.ToUpper(w[:1]) + w[1:]
 	}

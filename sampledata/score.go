@@ -292,6 +292,13 @@ func fillBar(r *rng, length int64, simple bool, tripletPct int) []int64 {
 	return out
 }
 
+// gate shortens a quantized note to about nine tenths of its value, on the 40-tick
+// grid that keeps every tick exact at 96, 384, 480 and 960 PPQ.
+func gate(d int64) int64 {
+	g := d * 9 / 10
+	return max(40, g-g%40)
+}
+
 func sum(xs []int64) int64 {
 	var s int64
 	for _, x := range xs {
@@ -404,7 +411,7 @@ const (
 func composeBass(r *rng, k key, bars []bar, style, vel int) []note {
 	var out []note
 	add := func(t, d int64, p int) {
-		out = append(out, note{start: t, end: t + d*9/10, pitch: clampKey(p), vel: clampVel(vel + r.between(-6, 6))})
+		out = append(out, note{start: t, end: t + gate(d), pitch: clampKey(p), vel: clampVel(vel + r.between(-6, 6))})
 	}
 	for bi, b := range bars {
 		L := b.length()
@@ -494,7 +501,7 @@ func composeChords(r *rng, k key, bars []bar, style, lo, vel int) []note {
 		case chordsBeats:
 			t := b.start
 			for _, g := range b.beats {
-				hit(t, int64(g)*480*9/10, b.chord)
+				hit(t, gate(int64(g)*480), b.chord)
 				t += int64(g) * 480
 			}
 		case chordsAfterbeat:
