@@ -342,3 +342,22 @@ func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) er
 	}
 	return nil
 }
+
+// Load reads one MIDI file as Scan does: its size checked against max (0: 64 MiB)
+// before it is read, never more than max+1 bytes read, and a name ending in .gz
+// decompressed within the same cap.
+func Load(path string, max int64) ([]byte, error) {
+	if max <= 0 {
+		max = DefaultMaxFileSize
+	}
+	data, err := fileLoader(path, max)()
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	if isGzipName(path) {
+		if data, err = gunzipCapped(data, max); err != nil {
+			return nil, fmt.Errorf("%s: %w", path, err)
+		}
+	}
+	return data, nil
+}
