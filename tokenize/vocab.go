@@ -66,15 +66,14 @@ const (
 
 var meterDens = [...]int{2, 4, 8, 16}
 
-// Entry is one vocabulary entry as written to JSON.
+// Entry is one vocabulary entry.
 type Entry struct {
-	ID    int32  `json:"id"`
-	Label string `json:"label"`
-	Kind  Kind   `json:"-"`
-	Value int    `json:"value"`
-	Den   int    `json:"den,omitempty"` // meter denominator
-	// BPM is the tempo a tempo token stands for (the bin centre).
-	BPM float64 `json:"bpm,omitempty"`
+	ID    int32
+	Label string
+	Kind  Kind
+	Value int     // see the Kind constants
+	Den   int     // meter denominator
+	BPM   float64 // the tempo a tempo token stands for (the bin centre, to 0.01)
 }
 
 // Vocab is the vocabulary of one config: ids, labels, kinds and values. It is
@@ -264,8 +263,12 @@ type vocabJSON struct {
 }
 
 type entryJSON struct {
-	Entry
-	KindName string `json:"kind"`
+	ID    int32   `json:"id"`
+	Label string  `json:"label"`
+	Kind  string  `json:"kind"`
+	Value int     `json:"value"`
+	Den   int     `json:"den,omitempty"`
+	BPM   float64 `json:"bpm,omitempty"`
 }
 
 // MarshalJSON writes the vocabulary: its encoding, size, config and every token's id,
@@ -273,7 +276,7 @@ type entryJSON struct {
 func (v *Vocab) MarshalJSON() ([]byte, error) {
 	out := vocabJSON{Encoding: v.cfg.Encoding, Size: len(v.entries), Config: v.cfg, Tokens: make([]entryJSON, len(v.entries))}
 	for i, e := range v.entries {
-		out.Tokens[i] = entryJSON{Entry: e, KindName: e.Kind.String()}
+		out.Tokens[i] = entryJSON{ID: e.ID, Label: e.Label, Kind: e.Kind.String(), Value: e.Value, Den: e.Den, BPM: e.BPM}
 	}
 	return json.Marshal(out)
 }
