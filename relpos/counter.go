@@ -40,13 +40,17 @@ type Counter struct {
 	// mags are the magnitudes a at which the number of pairs with |Δ| ≤ a is known on
 	// pointer-counted kinds: every a ≤ exactMags, then steps of a/12.
 	mags []int64
+	// bounds are the time magnitudes binned when sampling: mags and budget magnitudes.
+	bounds []int64
 
 	jointT, jointP *Scheme
 	pitchBucket    [pitchSpan]int32 // bucket of Δp+127 in jointP
 
 	// scratch
-	val, pos []int64
-	pit      []int16
+	val, pos   []int64
+	pit        []int16
+	gval, gpre []int64
+	gcnt       []int64
 }
 
 // exactMags is the largest magnitude up to which quantiles of pointer-counted kinds are
@@ -103,8 +107,18 @@ func NewCounter(cfg Config) (*Counter, error) {
 		for _, a := range c.budgetMags(k) {
 			add(-a)
 		}
-		c.cuts[k] = sortedUnique(cuts)
+		// Offsets in (−exactMags, 0] come from the per-pair walk (stream.small); the
+		// pointers count the rest, from −exactMags down.
+		cuts = append(cuts, -exactMags)
+		keep := cuts[:0]
+		for _, x := range cuts {
+			if x <= -exactMags {
+				keep = append(keep, x)
+			}
+		}
+		c.cuts[k] = sortedUnique(keep)
 	}
+	c.bounds = sortedUnique(append(append([]int64(nil), c.mags...), c.budgetMags(Time)...))
 	if cfg.Joint {
 		c.jointT, c.jointP = c.schemes[Time][0], c.schemes[Pitch][0]
 		for d := -127; d <= 127; d++ {
@@ -165,9 +179,11 @@ type stream struct {
 	dneg, dpos []int64           // distance: pairs at Δ = −a and +a (whole window)
 	phist      [pitchSpan]int64  // pitch: pairs at Δp + 127
 	below      [numKinds][]int64 // pointer-counted kinds: pairs with Δ < cuts[k][i]
-	// sampling: per-scheme counts and a histogram of offsets
-	sc   [numKinds][]SchemeCounts
-	hist [numKinds]map[int64]int64
+	small      [numKinds][]int64 // pointer-counted kinds: pairs with Δ = −a, 1 ≤ a ≤ exactMags
+	// sampling: per-scheme counts; distance and pitch offsets in dneg, dpos and phist;
+	// time magnitudes in bins: tbins[i] = pairs with bounds[i−1] < |Δ| ≤ bounds[i]
+	sc    [numKinds][]SchemeCounts
+	tbins []int64
 }
 
 // NewTally returns an empty tally for this counter.
@@ -184,17 +200,20 @@ func (c *Counter) NewTally() *Tally {
 }
 
 func (c *Counter) initStream(s *stream, sampled bool) {
+	if sampled {
+		s.tbins = make([]int64, len(c.bounds)+1)
+	}
 	for _, k := range Kinds {
 		if sampled {
 			s.sc[k] = make([]SchemeCounts, len(c.schemes[k]))
 			for i, sch := range c.schemes[k] {
 				s.sc[k][i].Buckets = make([]int64, sch.Buckets())
 			}
-			s.hist[k] = map[int64]int64{}
 			continue
 		}
 		if c.cuts[k] != nil {
 			s.below[k] = make([]int64, len(c.cuts[k]))
+			s.small[k] = make([]int64, exactMags+1)
 		}
 	}
 }
@@ -220,15 +239,18 @@ func (s *stream) add(o *stream) {
 		for i, v := range o.below[k] {
 			s.below[k][i] += v
 		}
+		for i, v := range o.small[k] {
+			s.small[k][i] += v
+		}
 		for i := range o.sc[k] {
 			s.sc[k][i].add(o.sc[k][i])
-		}
-		for d, n := range o.hist[k] {
-			s.hist[k][d] += n
 		}
 	}
 	s.dneg = addGrow(s.dneg, o.dneg)
 	s.dpos = addGrow(s.dpos, o.dpos)
+	for i, v := range o.tbins {
+		s.tbins[i] += v
+	}
 	for i, v := range o.phist {
 		s.phist[i] += v
 	}
@@ -310,7 +332,7 @@ func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
 		c.val = append(c.val, int64(tk.Time))
 	}
 	all.pairs[Time] += P
-	countPointers(c.val, c.cuts[Time], all.below[Time], &all.maxAbs[Time])
+	c.countPointers(c.val, c.cuts[Time], all.below[Time], all.small[Time], &all.maxAbs[Time])
 
 	// Pitch: running histogram.
 	c.pit = c.pit[:0]
@@ -363,34 +385,57 @@ func (c *Counter) countClass(s *stream, tokens []tokenize.Token, cl Class) {
 	P := pairCount(m, c.cfg.Pairs)
 	s.pairs[Distance] += P
 	s.pairs[Time] += P
-	countPointers(c.pos, c.cuts[Distance], s.below[Distance], &s.maxAbs[Distance])
-	countPointers(c.val, c.cuts[Time], s.below[Time], &s.maxAbs[Time])
+	c.countPointers(c.pos, c.cuts[Distance], s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
+	c.countPointers(c.val, c.cuts[Time], s.below[Time], s.small[Time], &s.maxAbs[Time])
 	s.pairs[Pitch] += countPitch(c.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
 }
 
-// countPointers adds, for each cut x ≤ 0, the number of ordered pairs (i, j) of the
-// non-decreasing values v with v[j] − v[i] < x. Such pairs have v[j] < v[i], so j < i:
-// they are causal pairs, and in bidirectional mode the counts of positive cuts follow
-// by symmetry. One pointer per cut moves forward as i does: O(len(v)) per cut.
-func countPointers(v, cuts, below []int64, maxAbs *int64) {
+// countPointers counts the ordered pairs (i, j) of the non-decreasing values v by
+// their offset v[j] − v[i] < 0 (such pairs have j < i: they are causal pairs, and in
+// bidirectional mode the counts of positive offsets follow by symmetry):
+//   - small[a] += pairs at offset −a for 1 ≤ a ≤ exactMags, walking back from each value
+//     while the offset stays that small;
+//   - below[k] += pairs with offset < cuts[k] (all ≤ −exactMags), with one pointer per
+//     cut that moves forward as i does: O(len(v)) per cut.
+//
+// Equal values are grouped first, so both cost O(distinct values) rather than O(len(v)).
+func (c *Counter) countPointers(v, cuts, below, small []int64, maxAbs *int64) {
 	n := len(v)
 	if n == 0 {
 		return
 	}
 	span := v[n-1] - v[0]
 	*maxAbs = max(*maxAbs, span)
+	vals, cnts, pre := c.gval[:0], c.gcnt[:0], c.gpre[:0]
+	for i, x := range v {
+		if i > 0 && x == v[i-1] {
+			cnts[len(cnts)-1]++
+			continue
+		}
+		vals, cnts = append(vals, x), append(cnts, 1)
+	}
+	pre = append(pre, 0)
+	for _, m := range cnts {
+		pre = append(pre, pre[len(pre)-1]+m)
+	}
+	c.gval, c.gcnt, c.gpre = vals, cnts, pre
+	for g, x := range vals {
+		for h := g - 1; h >= 0 && x-vals[h] <= exactMags; h-- {
+			small[x-vals[h]] += cnts[g] * cnts[h]
+		}
+	}
 	for k, x := range cuts {
 		if x <= -span {
-			continue // v[i] + x ≤ v[0]: no key lies below
+			continue // vals[g] + x ≤ vals[0]: no key lies below
 		}
 		var sum int64
 		p := 0
-		for _, vi := range v {
-			thr := vi + x
-			for v[p] < thr { // stops at p ≤ i since v[i] ≥ thr
+		for g, vg := range vals {
+			thr := vg + x
+			for vals[p] < thr { // stops at p ≤ g since vals[g] ≥ thr
 				p++
 			}
-			sum += int64(p)
+			sum += cnts[g] * pre[p]
 		}
 		below[k] += sum
 	}

@@ -69,28 +69,30 @@ type view struct {
 	// pointer counts
 	cuts, below []int64
 	mags        []int64
-	// sampling
-	sc []SchemeCounts
+	// smallAbove[a] = pairs with −exactMags ≤ Δ ≤ −a, for 1 ≤ a ≤ exactMags+1
+	smallAbove []int64
+	// sampling: per-scheme counts; for time, binCum[i] = pairs with |Δ| ≤ mags[i]
+	sc     []SchemeCounts
+	binCum []int64
 }
 
 func (c *Counter) view(s *stream, k Kind, whole bool) *view {
 	v := &view{mode: c.cfg.Pairs, pairs: s.pairs[k], maxAbs: s.maxAbs[k]}
-	switch {
-	case s.sc[k] != nil:
+	if s.sc[k] != nil {
 		v.sampled, v.sc = true, s.sc[k]
-		keys := make([]int64, 0, len(s.hist[k]))
-		for d := range s.hist[k] {
-			keys = append(keys, d)
-		}
-		sort.Slice(keys, func(i, j int) bool { return keys[i] < keys[j] })
-		v.cuts = keys // sampled: cuts are the offsets seen, below[i] = pairs with Δ < keys[i]
-		v.below = make([]int64, len(keys))
+	}
+	switch {
+	case s.sc[k] != nil && k == Time:
+		v.sampled, v.sc = true, s.sc[k]
+		v.mags = c.bounds
+		v.binCum = make([]int64, len(s.tbins))
 		var run int64
-		for i, d := range keys {
-			v.below[i] = run
-			run += s.hist[k][d]
+		for i, n := range s.tbins {
+			run += n
+			v.binCum[i] = run
 		}
-	case k == Distance && whole:
+		return v
+	case k == Distance && (whole || s.sc[k] != nil):
 		n := int64(len(s.dneg))
 		v.lo = -(n - 1)
 		v.cum = make([]int64, 2*n)
@@ -112,12 +114,16 @@ func (c *Counter) view(s *stream, k Kind, whole bool) *view {
 		}
 	default:
 		v.cuts, v.below, v.mags = c.cuts[k], s.below[k], c.mags
+		v.smallAbove = make([]int64, exactMags+2)
+		for a := exactMags; a >= 1; a-- {
+			v.smallAbove[a] = v.smallAbove[a+1] + s.small[k][a]
+		}
 	}
 	return v
 }
 
 // exactHist reports whether every offset's count is known.
-func (v *view) exactHist() bool { return v.cum != nil || v.sampled }
+func (v *view) exactHist() bool { return v.cum != nil }
 
 // belowAt returns the number of pairs with Δ < x.
 func (v *view) belowAt(x int64) int64 {
@@ -133,17 +139,14 @@ func (v *view) belowAt(x int64) int64 {
 			return v.pairs
 		}
 		return v.cum[i]
-	case v.sampled:
-		i := sort.Search(len(v.cuts), func(i int) bool { return v.cuts[i] >= x })
-		if i == len(v.cuts) {
-			return v.pairs
-		}
-		return v.below[i]
 	case x > 0:
 		if v.mode == Causal {
 			return v.pairs
 		}
 		return v.pairs - v.belowAt(-x+1)
+	case x > -exactMags:
+		// Δ < x ≤ 0: below −exactMags, or −Δ in [1−x, exactMags]
+		return v.belowAt(-exactMags) + v.smallAbove[1-x]
 	}
 	i := sort.Search(len(v.cuts), func(i int) bool { return v.cuts[i] >= x })
 	if i == len(v.cuts) || v.cuts[i] != x {
@@ -156,6 +159,13 @@ func (v *view) belowAt(x int64) int64 {
 func (v *view) absAtMost(a int64) int64 {
 	if a == math.MaxInt64 {
 		return v.pairs
+	}
+	if v.binCum != nil {
+		i := sort.Search(len(v.mags), func(i int) bool { return v.mags[i] >= a })
+		if i == len(v.mags) || v.mags[i] != a {
+			panic(fmt.Sprintf("relpos: internal error: magnitude %d is not a sampling bin bound", a))
+		}
+		return v.binCum[i]
 	}
 	return v.belowAt(a+1) - v.belowAt(-a)
 }
