@@ -75,7 +75,7 @@ func archiveError(base entry, err error) *entry {
 
 // entryCheck classifies one archive entry by its header; it returns ok=false for an
 // entry that is no record at all (a folder) and a non-nil error for one to skip.
-func entryCheck(name string, mode fs.FileMode, size int64, lim *Limits) (bool, error) {
+func entryCheck(name string, mode fs.FileMode, size int64, lim *Limits, maxFile int64) (bool, error) {
 	switch {
 	case mode.IsDir() || strings.HasSuffix(name, "/"):
 		return false, nil
@@ -89,6 +89,9 @@ func entryCheck(name string, mode fs.FileMode, size int64, lim *Limits) (bool, e
 		return true, ErrNotMIDI
 	case size > lim.MaxEntrySize:
 		return true, fmt.Errorf("%d bytes, cap %s: %w", size, sizeString(lim.MaxEntrySize), ErrEntryTooLarge)
+	case size > maxFile && !isGzipName(name):
+		// Checked before reading, as for files in folders.
+		return true, fmt.Errorf("%d bytes, limit %s: %w", size, sizeString(maxFile), ErrTooLarge)
 	}
 	return true, nil
 }
@@ -131,7 +134,7 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 			return ctx.Err()
 		}
 		size := int64(zf.UncompressedSize64)
-		isRecord, err := entryCheck(zf.Name, zf.Mode(), size, lim)
+		isRecord, err := entryCheck(zf.Name, zf.Mode(), size, lim, opts.MaxFileSize)
 		if !isRecord {
 			continue
 		}
@@ -200,7 +203,7 @@ func tarStream(path string, gz bool) (*tar.Reader, func() error, error) {
 // listTar reads every header of a tar stream. A damaged stream keeps the items read
 // before the damage and reports the damage as tailErr; refused is set when the archive
 // goes over the entry-count or total-size cap.
-func listTar(ctx context.Context, path string, gz bool, lim *Limits) (items []tarItem, tailErr, refused error) {
+func listTar(ctx context.Context, path string, gz bool, lim *Limits, maxFile int64) (items []tarItem, tailErr, refused error) {
 	tr, closeFn, err := tarStream(path, gz)
 	if err != nil {
 		return nil, fmt.Errorf("open tar: %w: %w", err, ErrBadArchive), nil
@@ -238,7 +241,7 @@ func listTar(ctx context.Context, path string, gz bool, lim *Limits) (items []ta
 		case tar.TypeReg, tar.TypeGNUSparse:
 			mode = 0
 		}
-		isRecord, err := entryCheck(hdr.Name, mode, hdr.Size, lim)
+		isRecord, err := entryCheck(hdr.Name, mode, hdr.Size, lim, maxFile)
 		if isRecord {
 			items = append(items, tarItem{name: hdr.Name, size: hdr.Size, index: i, err: err})
 		}
@@ -248,7 +251,7 @@ func listTar(ctx context.Context, path string, gz bool, lim *Limits) (items []ta
 // enumerateTar emits the entries of a tar or gzip-compressed tar stream sorted by name.
 func enumerateTar(ctx context.Context, path string, gz bool, base entry, opts *Options, emit emitFunc) error {
 	lim := &opts.Limits
-	items, tailErr, refused := listTar(ctx, path, gz, lim)
+	items, tailErr, refused := listTar(ctx, path, gz, lim, opts.MaxFileSize)
 	if refused != nil {
 		if ctx.Err() != nil {
 			return ctx.Err()
