@@ -285,8 +285,15 @@ func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) err
 	return nil
 }
 
+// resetHist empties h, clearing only the counters between its extremes.
 func resetHist(h *Hist) {
-	clear(h.Counts)
+	if h.N > 0 {
+		lo := max(h.Min-h.Lo, 0)
+		hi := min(h.Max-h.Lo, int64(len(h.Counts))-1)
+		if lo <= hi {
+			clear(h.Counts[lo : hi+1])
+		}
+	}
 	*h = Hist{Lo: h.Lo, Counts: h.Counts, Min: math.MaxInt64, Max: math.MinInt64}
 }
 

@@ -59,8 +59,11 @@ func (h *Hist) Merge(o *Hist) {
 	if o.N == 0 {
 		return
 	}
-	for i, c := range o.Counts {
-		h.Counts[i] += c
+	// Only the counters between o's extremes can be non-zero.
+	lo := max(o.Min-o.Lo, 0)
+	hi := min(o.Max-o.Lo, int64(len(o.Counts))-1)
+	for i := lo; i <= hi; i++ {
+		h.Counts[i] += o.Counts[i]
 	}
 	h.Under += o.Under
 	h.Over += o.Over

@@ -176,7 +176,7 @@ func bpm(v float64) string {
 	if v >= math.MaxFloat64 {
 		return "∞"
 	}
-	return strconv.FormatFloat(v, 'f', 1, 64)
+	return strconv.FormatFloat(math.Round(v*10)/10, 'f', -1, 64)
 }
 
 // thousands formats an integer with thin grouping commas: 12,345.

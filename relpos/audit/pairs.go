@@ -8,7 +8,7 @@ import (
 
 // Ranges of the pair histograms.
 const (
-	maxPairDT = 60_000 // in the stream's time unit (ms, or grid steps)
+	maxPairDT = 300_000 // in the stream's time unit (ms, or grid steps): five minutes
 	maxPairDP = 127
 )
 

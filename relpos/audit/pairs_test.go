@@ -38,11 +38,15 @@ func randomWindow(r *rand.Rand, n int, sorted bool) []tokenize.Token {
 func TestPairCounterMatchesNaive(t *testing.T) {
 	r := rand.New(rand.NewPCG(1, 2))
 	var pc pairCounter
+	// A short Δt range, so that the upper tail is exercised too.
+	fastT, fastP := newHist(0, 20_000), newHist(-maxPairDP, maxPairDP)
+	slowT, slowP := newHist(0, 20_000), newHist(-maxPairDP, maxPairDP)
 	for trial := range 300 {
 		n := r.IntN(300)
 		toks := randomWindow(r, n, trial%10 != 0)
-		fastT, fastP := newHist(0, maxPairDT), newHist(-maxPairDP, maxPairDP)
-		slowT, slowP := newHist(0, maxPairDT), newHist(-maxPairDP, maxPairDP)
+		for _, h := range []*Hist{fastT, fastP, slowT, slowP} {
+			resetHist(h)
+		}
 		pc.window(toks, fastT, fastP)
 		pc.window(toks[:0], fastT, fastP) // an empty window adds nothing
 		naivePairs(toks, slowT, slowP)
