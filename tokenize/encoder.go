@@ -69,7 +69,7 @@ type Encoder struct {
 	clock    clock
 
 	pnotes []pnote
-	events []pevent
+	offs   []pendingOff
 	gnotes []gnote
 	bars   []barInfo
 	stream []Token
@@ -187,6 +187,7 @@ type cutState struct {
 	inst     Token // last inst token
 	prevTime int32 // time and ms after the last token
 	prevMS   int32
+	velAt    int // stream index of vel (performance): look-backs stop there
 }
 
 func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error) error {
@@ -197,8 +198,12 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error) error {
 	at := 0 // the state covers s[:at]
 	start, idx := 0, 0
 	for start < n {
-		for ; at < start; at++ {
-			e.track(&st, s[at])
+		if grid {
+			for ; at < start; at++ {
+				e.track(&st, s[at])
+			}
+		} else if start > 0 {
+			e.lastVelocity(&st, s, start)
 		}
 		w := e.window[:0]
 		body := start
@@ -241,16 +246,29 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error) error {
 // startable reports whether a grid window may begin at a token of this id: not in
 // the middle of a note, not between a bar and its meter and tempo.
 func (e *Encoder) startable(id int32) bool {
-	switch e.vocab.entries[id].Kind {
+	switch e.vocab.kinds[id] {
 	case KindDuration, KindVelocity, KindMeter, KindTempo:
 		return false
 	}
 	return true
 }
 
+// lastVelocity finds the performance state at a cut by looking back from it: the
+// time and the latest set-velocity (usually a few tokens back).
+func (e *Encoder) lastVelocity(st *cutState, s []Token, start int) {
+	st.prevTime, st.prevMS = s[start-1].Time, s[start-1].MS
+	lo, hi := e.vocab.velBase, e.vocab.velBase+int32(e.cfg.VelocityBins)
+	for i := start - 1; i >= st.velAt; i-- {
+		if id := s[i].ID; id >= lo && id < hi {
+			st.vel, st.velAt = s[i], i
+			return
+		}
+	}
+}
+
 func (e *Encoder) track(st *cutState, t Token) {
 	st.prevTime, st.prevMS = t.Time, t.MS
-	switch e.vocab.entries[t.ID].Kind {
+	switch e.vocab.kinds[t.ID] {
 	case KindVelocity:
 		st.vel = t
 	case KindBar:
@@ -270,7 +288,7 @@ func (e *Encoder) track(st *cutState, t Token) {
 // prefix appends the state a window starting at s[start] needs and returns the index
 // of the first stream token the window takes.
 func (e *Encoder) prefix(w []Token, st *cutState, s []Token, start int) ([]Token, int) {
-	first := e.vocab.entries[s[start].ID].Kind
+	first := e.vocab.kinds[s[start].ID]
 	if e.cfg.Encoding == Performance {
 		if st.vel.ID != 0 && first != KindVelocity {
 			t := st.vel

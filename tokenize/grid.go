@@ -60,6 +60,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	e.clock.reset(p)
 	notes := e.gnotes[:0]
 	maxDur := int64(e.cfg.MaxDurationSteps)
+	sorted := true
 	for i := range p.Notes {
 		n := &p.Notes[i]
 		if n.Drum && e.cfg.Drums == DrumsDrop {
@@ -93,12 +94,14 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		if n.Drum {
 			g.inst = InstDrums
 		}
+		if len(notes) > 0 && g.step < notes[len(notes)-1].step {
+			sorted = false
+		}
 		notes = append(notes, g)
 	}
-	slices.SortFunc(notes, func(a, b gnote) int {
-		return cmp.Or(cmp.Compare(a.step, b.step), cmp.Compare(a.inst, b.inst), cmp.Compare(a.pitch, b.pitch),
-			cmp.Compare(a.dur, b.dur), cmp.Compare(a.vel, b.vel))
-	})
+	if !sorted { // ingest sorts notes by onset; hand-made pieces may not be
+		slices.SortStableFunc(notes, func(a, b gnote) int { return cmp.Compare(a.step, b.step) })
+	}
 	e.gnotes = notes
 	st.Encoded = len(notes)
 
@@ -155,8 +158,15 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			s := notes[ni].step
 			t, ms := int32(s), e.msOfStep(s)
 			dst = append(dst, Token{ID: voc.posBase + int32(s-barStart), Time: t, MS: ms, Pitch: -1, Inst: -1})
-			for ; ni < len(notes) && notes[ni].step == s; ni++ {
-				n := &notes[ni]
+			h := ni
+			for h < len(notes) && notes[h].step == s {
+				h++
+			}
+			group := notes[ni:h]
+			ni = h
+			sortGridGroup(group)
+			for gi := range group {
+				n := &group[gi]
 				if n.inst != curInst {
 					dst = append(dst, Token{ID: instID(voc, n.inst), Time: t, MS: ms, Pitch: -1, Inst: n.inst})
 					curInst = n.inst
@@ -169,11 +179,45 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		}
 		barStart = barEnd
 		if len(dst)-start > MaxStreamTokens {
-			return dst, st, fmt.Errorf("encode: %w: over %d tokens", ErrTooLong, MaxStreamTokens)
+			return dst, st, errStreamTooLong()
 		}
 	}
 	last := dst[len(dst)-1]
 	dst = append(dst, Token{ID: EndID, Time: last.Time, MS: last.MS, Pitch: -1, Inst: -1})
 	st.Tokens = len(dst) - start
 	return dst, st, nil
+}
+
+func gridLess(a, b *gnote) bool {
+	if a.inst != b.inst {
+		return a.inst < b.inst
+	}
+	if a.pitch != b.pitch {
+		return a.pitch < b.pitch
+	}
+	if a.dur != b.dur {
+		return a.dur < b.dur
+	}
+	return a.vel < b.vel
+}
+
+// sortGridGroup orders the notes of one onset by instrument, key, duration, velocity.
+func sortGridGroup(g []gnote) {
+	if len(g) > smallSort {
+		slices.SortStableFunc(g, func(a, b gnote) int {
+			if gridLess(&a, &b) {
+				return -1
+			}
+			if gridLess(&b, &a) {
+				return 1
+			}
+			return 0
+		})
+		return
+	}
+	for i := 1; i < len(g); i++ {
+		for j := i; j > 0 && gridLess(&g[j], &g[j-1]); j-- {
+			g[j], g[j-1] = g[j-1], g[j]
+		}
+	}
 }

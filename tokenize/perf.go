@@ -15,33 +15,32 @@ type pnote struct {
 	pitch   uint8
 	vel     uint8 // bin
 	drum    bool
+	dead    bool // merged into another note of the same key and onset
 	inst    int16
 }
 
-// Event classes at one instant, in stream order: note-offs of notes that began
-// earlier, then note-ons and hits, then note-offs of notes that began at this very
-// step (zero length after quantization), so every note-off follows its note-on.
-const (
-	classOff     = 0
-	classOn      = 1
-	classZeroOff = 2
-)
-
-type pevent struct {
+// pendingOff is a note-off waiting in the encoder's heap, ordered by (step, key).
+type pendingOff struct {
 	step  int64
-	class uint8
 	pitch uint8
-	drum  bool
-	vel   uint8
 	inst  int16
 }
 
+// smallSort is the group size up to which groups are insertion-sorted.
+const smallSort = 24
+
+// Events at one instant come in this order: note-offs of notes that began earlier
+// (by key), then note-ons and hits (by key, a note before a hit of the same key),
+// each after a set-velocity when the bin changes, then note-offs of notes that began
+// at this very step (zero length after quantization), so every note-off follows its
+// note-on.
 func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
 	var st Stats
 	st.Notes = len(p.Notes)
 	shift := float64(e.cfg.ShiftMS)
 	voc := e.vocab
 	notes := e.pnotes[:0]
+	sorted := true
 	for i := range p.Notes {
 		n := &p.Notes[i]
 		if n.Drum && e.cfg.Drums == DrumsDrop {
@@ -70,101 +69,204 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 			pn.off = pn.on
 			pn.inst = InstDrums
 		}
+		if len(notes) > 0 && pn.on < notes[len(notes)-1].on {
+			sorted = false
+		}
 		notes = append(notes, pn)
 	}
-	// Per key: one note at a time. Same onset: keep the longest; overlap: retrigger.
-	slices.SortFunc(notes, func(a, b pnote) int {
-		if a.drum != b.drum {
-			if a.drum {
-				return 1
-			}
-			return -1
-		}
-		return cmp.Or(cmp.Compare(a.pitch, b.pitch), cmp.Compare(a.on, b.on), cmp.Compare(b.off, a.off))
-	})
-	kept := notes[:0]
-	for _, n := range notes {
-		if len(kept) > 0 {
-			last := &kept[len(kept)-1]
-			if last.drum == n.drum && last.pitch == n.pitch {
-				if last.on == n.on {
-					st.Merged++
-					continue
-				}
-				if !n.drum && n.on < last.off {
-					last.off = n.on
-					st.Retriggered++
-				}
-			}
-		}
-		kept = append(kept, n)
+	if !sorted { // ingest sorts notes by onset; hand-made pieces may not be
+		slices.SortStableFunc(notes, func(a, b pnote) int { return cmp.Compare(a.on, b.on) })
 	}
 	e.pnotes = notes
-	st.Encoded = len(kept)
 
-	events := e.events[:0]
-	for _, n := range kept {
-		events = append(events, pevent{step: n.on, class: classOn, pitch: n.pitch, drum: n.drum, vel: n.vel, inst: n.inst})
-		if !n.drum {
-			c := uint8(classOff)
-			if n.off == n.on {
-				c = classZeroOff
+	// One note per key at a time, in onset order: at the same onset keep the longest;
+	// a note still sounding when its key starts again ends there (retrigger).
+	var last [2][128]int32 // index+1 of the key's latest note
+	for i := range notes {
+		n := &notes[i]
+		d := 0
+		if n.drum {
+			d = 1
+		}
+		if j := last[d][n.pitch]; j != 0 {
+			l := &notes[j-1]
+			if l.on == n.on {
+				st.Merged++
+				if n.off > l.off {
+					l.off, l.vel, l.inst = n.off, n.vel, n.inst
+				}
+				n.dead = true
+				continue
 			}
-			events = append(events, pevent{step: n.off, class: c, pitch: n.pitch, inst: n.inst})
+			if !n.drum && n.on < l.off {
+				l.off = n.on
+				st.Retriggered++
+			}
 		}
+		last[d][n.pitch] = int32(i + 1)
 	}
-	slices.SortFunc(events, func(a, b pevent) int {
-		if c := cmp.Or(cmp.Compare(a.step, b.step), cmp.Compare(a.class, b.class), cmp.Compare(a.pitch, b.pitch)); c != 0 {
-			return c
-		}
-		if a.drum == b.drum {
-			return 0
-		}
-		if a.drum {
-			return 1
-		}
-		return -1
-	})
-	e.events = events
+	st.Encoded = len(notes) - st.Merged
 
-	start := len(dst)
-	dst = append(dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
-	var cur int64
+	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
+		shiftBase: voc.shiftBase, offBase: voc.offBase, heap: e.offs[:0]}
+	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
 	curVel := -1
-	maxSteps := int64(voc.shiftSteps)
-	for _, ev := range events {
-		if gap := ev.step - cur; gap > 0 {
-			if (len(dst)-start)+int(gap/maxSteps) > MaxStreamTokens {
-				return dst, st, fmt.Errorf("encode: %w: over %d tokens", ErrTooLong, MaxStreamTokens)
+	for g := 0; g < len(notes); {
+		s := notes[g].on
+		h := g
+		for h < len(notes) && notes[h].on == s {
+			h++
+		}
+		group := notes[g:h]
+		g = h
+		sortGroup(group)
+		if !o.offsUpTo(s) || !o.advance(s) {
+			return o.dst, st, errStreamTooLong()
+		}
+		ms := int32(o.cur * o.shiftMS)
+		for i := range group {
+			n := &group[i]
+			if n.dead {
+				continue
 			}
-			for gap > 0 {
-				n := min(gap, maxSteps)
-				cur += n
-				gap -= n
-				ms := int32(cur * int64(e.cfg.ShiftMS))
-				dst = append(dst, Token{ID: voc.shiftBase + int32(n) - 1, Time: ms, MS: ms, Pitch: -1, Inst: -1})
+			if int(n.vel) != curVel {
+				curVel = int(n.vel)
+				o.dst = append(o.dst, Token{ID: voc.velBase + int32(n.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
+			}
+			id := voc.onBase + int32(n.pitch)
+			if n.drum {
+				id = voc.hitBase + int32(n.pitch)
+			}
+			o.dst = append(o.dst, Token{ID: id, Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+		}
+		for i := range group {
+			n := &group[i]
+			if n.dead || n.drum {
+				continue
+			}
+			if n.off == n.on {
+				o.dst = append(o.dst, Token{ID: voc.offBase + int32(n.pitch), Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+			} else {
+				o.heap = pushOff(o.heap, pendingOff{step: n.off, pitch: n.pitch, inst: n.inst})
 			}
 		}
-		ms := int32(cur * int64(e.cfg.ShiftMS))
-		if ev.class == classOn {
-			if int(ev.vel) != curVel {
-				curVel = int(ev.vel)
-				dst = append(dst, Token{ID: voc.velBase + int32(ev.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
-			}
-			id := voc.onBase + int32(ev.pitch)
-			if ev.drum {
-				id = voc.hitBase + int32(ev.pitch)
-			}
-			dst = append(dst, Token{ID: id, Time: ms, MS: ms, Pitch: int16(ev.pitch), Inst: ev.inst})
-		} else {
-			dst = append(dst, Token{ID: voc.offBase + int32(ev.pitch), Time: ms, MS: ms, Pitch: int16(ev.pitch), Inst: ev.inst})
-		}
-		if len(dst)-start > MaxStreamTokens {
-			return dst, st, fmt.Errorf("encode: %w: over %d tokens", ErrTooLong, MaxStreamTokens)
+		if len(o.dst)-o.start > MaxStreamTokens {
+			return o.dst, st, errStreamTooLong()
 		}
 	}
-	ms := int32(cur * int64(e.cfg.ShiftMS))
-	dst = append(dst, Token{ID: EndID, Time: ms, MS: ms, Pitch: -1, Inst: -1})
-	st.Tokens = len(dst) - start
-	return dst, st, nil
+	if !o.offsUpTo(math.MaxInt64) {
+		return o.dst, st, errStreamTooLong()
+	}
+	e.offs = o.heap
+	ms := int32(o.cur * o.shiftMS)
+	o.dst = append(o.dst, Token{ID: EndID, Time: ms, MS: ms, Pitch: -1, Inst: -1})
+	st.Tokens = len(o.dst) - o.start
+	return o.dst, st, nil
+}
+
+func errStreamTooLong() error {
+	return fmt.Errorf("encode: %w: over %d tokens", ErrTooLong, MaxStreamTokens)
+}
+
+// perfOut is the output state of the performance encoder.
+type perfOut struct {
+	dst               []Token
+	start             int
+	cur               int64 // current time in steps
+	maxSteps, shiftMS int64
+	shiftBase         int32
+	offBase           int32
+	heap              []pendingOff
+}
+
+// advance emits the time-shifts up to step; false when the stream would grow past
+// MaxStreamTokens.
+func (o *perfOut) advance(to int64) bool {
+	gap := to - o.cur
+	if gap <= 0 {
+		return true
+	}
+	if (len(o.dst)-o.start)+int(gap/o.maxSteps) > MaxStreamTokens {
+		return false
+	}
+	for gap > 0 {
+		n := min(gap, o.maxSteps)
+		o.cur += n
+		gap -= n
+		ms := int32(o.cur * o.shiftMS)
+		o.dst = append(o.dst, Token{ID: o.shiftBase + int32(n) - 1, Time: ms, MS: ms, Pitch: -1, Inst: -1})
+	}
+	return true
+}
+
+// offsUpTo emits the pending note-offs up to step, with the shifts between them.
+func (o *perfOut) offsUpTo(step int64) bool {
+	for len(o.heap) > 0 && o.heap[0].step <= step {
+		off := o.heap[0]
+		o.heap = popOff(o.heap)
+		if !o.advance(off.step) {
+			return false
+		}
+		ms := int32(o.cur * o.shiftMS)
+		o.dst = append(o.dst, Token{ID: o.offBase + int32(off.pitch), Time: ms, MS: ms, Pitch: int16(off.pitch), Inst: off.inst})
+	}
+	return true
+}
+
+// sortGroup orders the notes of one onset by key, a note before a hit of the same key.
+func sortGroup(g []pnote) {
+	less := func(a, b *pnote) bool { return a.pitch < b.pitch || (a.pitch == b.pitch && !a.drum && b.drum) }
+	if len(g) > smallSort {
+		slices.SortStableFunc(g, func(a, b pnote) int {
+			if less(&a, &b) {
+				return -1
+			}
+			if less(&b, &a) {
+				return 1
+			}
+			return 0
+		})
+		return
+	}
+	for i := 1; i < len(g); i++ {
+		for j := i; j > 0 && less(&g[j], &g[j-1]); j-- {
+			g[j], g[j-1] = g[j-1], g[j]
+		}
+	}
+}
+
+func offLess(a, b pendingOff) bool { return a.step < b.step || (a.step == b.step && a.pitch < b.pitch) }
+
+func pushOff(h []pendingOff, o pendingOff) []pendingOff {
+	h = append(h, o)
+	for i := len(h) - 1; i > 0; {
+		p := (i - 1) / 2
+		if !offLess(h[i], h[p]) {
+			break
+		}
+		h[i], h[p] = h[p], h[i]
+		i = p
+	}
+	return h
+}
+
+func popOff(h []pendingOff) []pendingOff {
+	n := len(h) - 1
+	h[0] = h[n]
+	h = h[:n]
+	for i := 0; ; {
+		l, r, m := 2*i+1, 2*i+2, i
+		if l < n && offLess(h[l], h[m]) {
+			m = l
+		}
+		if r < n && offLess(h[r], h[m]) {
+			m = r
+		}
+		if m == i {
+			break
+		}
+		h[i], h[m] = h[m], h[i]
+		i = m
+	}
+	return h
 }

@@ -23,9 +23,18 @@ const (
 	maxDelta    = 0x0FFFFFFF
 )
 
+// Event classes at one tick, in file order: note-offs of notes that began earlier,
+// then note-ons, then note-offs of zero-length notes, so every note-off follows its
+// note-on.
+const (
+	classOff     = 0
+	classOn      = 1
+	classZeroOff = 2
+)
+
 type smfEvent struct {
 	tick  int64
-	class uint8 // classOff, classOn, classZeroOff as in the encoder
+	class uint8 // classOff, classOn or classZeroOff
 	ch    uint8
 	key   uint8
 	vel   uint8

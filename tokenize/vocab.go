@@ -81,6 +81,7 @@ type Entry struct {
 type Vocab struct {
 	cfg     Config
 	entries []Entry
+	kinds   []Kind // kinds[id], compact for the hot loops
 
 	// Performance id bases.
 	onBase, offBase, shiftBase, velBase, hitBase int32
@@ -93,7 +94,8 @@ type Vocab struct {
 	tempoBPM                                                           []float64
 	meterID                                                            map[[2]int]int32
 
-	velLo, velHi [129]uint8 // per bin (velLo/velHi index by bin)
+	velLo, velHi [129]uint8 // lowest and highest velocity of each bin
+	velBins      [128]uint8 // bin of each velocity
 }
 
 // NewVocab builds the vocabulary of cfg.
@@ -106,6 +108,9 @@ func NewVocab(cfg Config) (*Vocab, error) {
 	v.add(KindSpecial, "begin", 1)
 	v.add(KindSpecial, "end", 2)
 	bins := cfg.VelocityBins
+	for vel := range v.velBins {
+		v.velBins[vel] = uint8(vel * bins / 128)
+	}
 	for b := 0; b < bins; b++ {
 		lo := (b*128 + bins - 1) / bins
 		hi := ((b+1)*128+bins-1)/bins - 1
@@ -194,6 +199,10 @@ func NewVocab(cfg Config) (*Vocab, error) {
 			v.add(KindVelocity, "vel."+strconv.Itoa(b), b)
 		}
 	}
+	v.kinds = make([]Kind, len(v.entries))
+	for i, e := range v.entries {
+		v.kinds[i] = e.Kind
+	}
 	return v, nil
 }
 
@@ -236,7 +245,7 @@ func (v *Vocab) Lookup(label string) (int32, bool) {
 }
 
 // velBin maps a MIDI velocity to its bin.
-func (v *Vocab) velBin(vel uint8) int { return int(vel) * v.cfg.VelocityBins / 128 }
+func (v *Vocab) velBin(vel uint8) int { return int(v.velBins[vel&127]) }
 
 // velValue is the velocity a bin decodes to: the middle of the bin, at least 1.
 func (v *Vocab) velValue(bin int) uint8 {
