@@ -177,4 +177,3 @@ func TestRunShardsReadByArrow(t *testing.T) {
 		t.Errorf("arrow-go reads the metadata\n%v\nwant\n%v", meta, wantMeta)
 	}
 }
-
