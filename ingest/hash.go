@@ -7,6 +7,7 @@ import (
 	"encoding/hex"
 	"hash"
 	"math"
+	"math/bits"
 	"slices"
 )
 
@@ -38,7 +39,7 @@ type noteKey struct {
 // pieceHasher computes content hashes, reusing its buffers between pieces.
 type pieceHasher struct {
 	keys             []noteKey
-	buf              []byte
+	buf, tbuf        []byte
 	musical, transpo hash.Hash
 }
 
@@ -76,62 +77,104 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	}
 	// Within one piece every note has the same denominator, so ordering by ticks orders
 	// by beat time too; the order is thus the same at any PPQ and under transposition.
-	slices.SortFunc(h.keys, func(a, b noteKey) int {
-		if c := cmp.Compare(a.start, b.start); c != 0 {
-			return c
-		}
-		if a.drum != b.drum {
-			if a.drum {
-				return 1
+	// Parse delivers notes sorted by start tick, so only runs of equal starts need
+	// sorting; anything else gets a full sort.
+	if slices.IsSortedFunc(h.keys, func(a, b noteKey) int { return cmp.Compare(a.start, b.start) }) {
+		for i := 0; i < len(h.keys); {
+			j := i + 1
+			for j < len(h.keys) && h.keys[j].start == h.keys[i].start {
+				j++
 			}
-			return -1
+			if j-i > 1 {
+				slices.SortFunc(h.keys[i:j], compareKeys)
+			}
+			i = j
 		}
-		if c := cmp.Compare(a.pitch, b.pitch); c != 0 {
-			return c
-		}
-		return cmp.Compare(a.dur, b.dur)
-	})
+	} else {
+		slices.SortFunc(h.keys, compareKeys)
+	}
 	h.musical.Reset()
 	h.transpo.Reset()
-	h.buf = append(h.buf[:0], hashVersion...)
-	h.buf = append(h.buf, unit) // quarter notes or seconds
-	h.buf = binary.AppendUvarint(h.buf, uint64(len(h.keys)))
-	h.musical.Write(h.buf)
-	h.transpo.Write(h.buf)
+	m := append(h.buf[:0], hashVersion...)
+	m = append(m, unit) // quarter notes or seconds
+	m = binary.AppendUvarint(m, uint64(len(h.keys)))
+	tr := append(h.tbuf[:0], m...)
+	// Chords share their onset and often their duration: encode each fraction once.
+	var onset, length [2 * binary.MaxVarintLen64]byte
+	var on, ln []byte
+	lastStart, lastDur := int64(-1), int64(-1)
 	for _, k := range h.keys {
-		h.buf = h.buf[:0]
-		h.buf = appendFraction(h.buf, k.start*scale, den)
-		h.buf = appendFraction(h.buf, k.dur*scale, den)
-		common := len(h.buf)
-		h.buf = append(h.buf, k.pitch, boolByte(k.drum))
-		h.musical.Write(h.buf)
+		if k.start != lastStart || on == nil {
+			on, lastStart = appendFraction(onset[:0], k.start*scale, den), k.start
+		}
+		if k.dur != lastDur || ln == nil {
+			ln, lastDur = appendFraction(length[:0], k.dur*scale, den), k.dur
+		}
+		m = append(append(m, on...), ln...)
+		m = append(m, k.pitch, boolByte(k.drum))
+		tr = append(append(tr, on...), ln...)
 		rel := k.pitch
 		if !k.drum {
 			rel -= minPitch
 		}
-		h.buf = append(h.buf[:common], rel, boolByte(k.drum))
-		h.transpo.Write(h.buf)
+		tr = append(tr, rel, boolByte(k.drum))
 	}
+	h.musical.Write(m)
+	h.transpo.Write(tr)
+	h.buf, h.tbuf = m, tr
 	var sum [sha256.Size]byte
 	p.MusicalHash = hex.EncodeToString(h.musical.Sum(sum[:0])[:hashLen])
 	p.TransposedHash = hex.EncodeToString(h.transpo.Sum(sum[:0])[:hashLen])
 }
 
+func compareKeys(a, b noteKey) int {
+	if c := cmp.Compare(a.start, b.start); c != 0 {
+		return c
+	}
+	if a.drum != b.drum {
+		if a.drum {
+			return 1
+		}
+		return -1
+	}
+	if c := cmp.Compare(a.pitch, b.pitch); c != 0 {
+		return c
+	}
+	return cmp.Compare(a.dur, b.dur)
+}
+
 // appendFraction appends num/den reduced to lowest terms, as two varints.
 func appendFraction(b []byte, num, den int64) []byte {
-	g := gcd(abs64(num), den)
+	if num == 0 {
+		return append(b, 0, 1)
+	}
+	g := gcd(uint64(abs64(num)), uint64(den))
 	if g > 1 {
-		num, den = num/g, den/g
+		num, den = num/int64(g), den/int64(g)
 	}
 	b = binary.AppendVarint(b, num)
 	return binary.AppendUvarint(b, uint64(den))
 }
 
-func gcd(a, b int64) int64 {
-	for b != 0 {
-		a, b = b, a%b
+// gcd is the binary (Stein's) greatest common divisor of a, b > 0: shifts and
+// subtractions, no divisions.
+func gcd(a, b uint64) uint64 {
+	if a == 0 {
+		return b
 	}
-	return a
+	if b == 0 {
+		return a
+	}
+	shift := bits.TrailingZeros64(a | b)
+	a >>= bits.TrailingZeros64(a)
+	for b != 0 {
+		b >>= bits.TrailingZeros64(b)
+		if a > b {
+			a, b = b, a
+		}
+		b -= a
+	}
+	return a << shift
 }
 
 func abs64(x int64) int64 {

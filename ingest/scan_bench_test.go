@@ -1,0 +1,76 @@
+package ingest
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"testing"
+)
+
+// BenchmarkScan measures Scan over Debian's openttd-openmsx files (folder walk, read,
+// SHA-256, parse, note pairing, filter and content hashes) next to merely reading the
+// same files' bytes, in the same run, so the two can be compared as a ratio.
+func BenchmarkScan(b *testing.B) {
+	scanNeedsRefs(b, scanOpenMSXDir, "openttd-openmsx")
+	paths, _ := filepath.Glob(filepath.Join(scanOpenMSXDir, "*.mid"))
+	var total int64
+	var datas [][]byte
+	for _, p := range paths {
+		data, err := os.ReadFile(p)
+		if err != nil {
+			b.Fatal(err)
+		}
+		total += int64(len(data))
+		datas = append(datas, data)
+	}
+	b.Run("read-bytes", func(b *testing.B) {
+		b.SetBytes(total)
+		b.ReportAllocs()
+		for b.Loop() {
+			for _, p := range paths {
+				if _, err := os.ReadFile(p); err != nil {
+					b.Fatal(err)
+				}
+			}
+		}
+	})
+	b.Run("in-memory-parse-hash", func(b *testing.B) {
+		b.SetBytes(total)
+		b.ReportAllocs()
+		h := newPieceHasher()
+		opts := DefaultParseOptions()
+		for b.Loop() {
+			for i, data := range datas {
+				fileSHA256(data)
+				pieces, err := Parse(paths[i], data, opts)
+				if err != nil {
+					b.Fatal(err)
+				}
+				for j := range pieces {
+					h.hashPiece(&pieces[j])
+				}
+			}
+		}
+	})
+	for _, w := range []struct {
+		name    string
+		workers int
+	}{{"scan-1-worker", 1}, {"scan-all-cores", 0}} {
+		b.Run(w.name, func(b *testing.B) {
+			b.SetBytes(total)
+			b.ReportAllocs()
+			opts := DefaultOptions()
+			opts.Workers = w.workers
+			for b.Loop() {
+				n := 0
+				err := Scan(context.Background(), []Source{{Path: scanOpenMSXDir}}, opts, func(r *Result) error {
+					n++
+					return nil
+				})
+				if err != nil || n != len(paths) {
+					b.Fatalf("Scan: %v, %d results", err, n)
+				}
+			}
+		})
+	}
+}
