@@ -203,6 +203,13 @@ func gridLess(a, b *gnote) bool {
 
 // sortGridGroup orders the notes of one onset by instrument, key, duration, velocity.
 func sortGridGroup(g []gnote) {
+	i := 1
+	for i < len(g) && !gridLess(&g[i], &g[i-1]) {
+		i++
+	}
+	if i >= len(g) {
+		return
+	}
 	if len(g) > smallSort {
 		slices.SortStableFunc(g, func(a, b gnote) int {
 			if gridLess(&a, &b) {
@@ -215,7 +222,7 @@ func sortGridGroup(g []gnote) {
 		})
 		return
 	}
-	for i := 1; i < len(g); i++ {
+	for ; i < len(g); i++ {
 		for j := i; j > 0 && gridLess(&g[j], &g[j-1]); j-- {
 			g[j], g[j-1] = g[j-1], g[j]
 		}

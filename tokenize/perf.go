@@ -216,6 +216,13 @@ func (o *perfOut) offsUpTo(step int64) bool {
 // sortGroup orders the notes of one onset by key, a note before a hit of the same key.
 func sortGroup(g []pnote) {
 	less := func(a, b *pnote) bool { return a.pitch < b.pitch || (a.pitch == b.pitch && !a.drum && b.drum) }
+	i := 1
+	for i < len(g) && !less(&g[i], &g[i-1]) {
+		i++
+	}
+	if i >= len(g) {
+		return // already in order, as single-track chords come from ingest
+	}
 	if len(g) > smallSort {
 		slices.SortStableFunc(g, func(a, b pnote) int {
 			if less(&a, &b) {
@@ -228,7 +235,7 @@ func sortGroup(g []pnote) {
 		})
 		return
 	}
-	for i := 1; i < len(g); i++ {
+	for ; i < len(g); i++ {
 		for j := i; j > 0 && less(&g[j], &g[j-1]); j-- {
 			g[j], g[j-1] = g[j-1], g[j]
 		}
