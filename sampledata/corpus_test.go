@@ -56,7 +56,7 @@ func TestGenerateGolden(t *testing.T) {
 		h.Write(f.Data)
 	}
 	got := hex.EncodeToString(h.Sum(nil))
-	const want = "897678c21a3dba555039beb6b1983165ddcdb27fb4d590c7bbcc5c6108affae7"
+	const want = "5ab3c15874bfd330007b015ec2f09f91336ebbe3136a9eeb630353f0e393aa71"
 	if got != want {
 		t.Errorf("corpus hash for seed 1 = %s, want %s", got, want)
 	}

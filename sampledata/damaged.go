@@ -16,6 +16,9 @@ type DamagedCase struct {
 	// WantText is a substring of the error message (the sentinel's text, and where
 	// it is fixed, the byte offset or track).
 	WantText string
+	// WantTrack is the track index the error names, -1 for errors of the header or
+	// of the file as a whole.
+	WantTrack int
 	// Ext is the file-name extension: ".mid", or ".mid.gz" for the case of a file
 	// named as gzip-compressed that is not.
 	Ext string
@@ -29,10 +32,10 @@ type DamagedCase struct {
 // chunk is "MThd", a 4-byte length (6), then format (bytes 8-9), track count (10-11)
 // and division (12-13); track chunks follow from byte 14.
 var damagedCases = []DamagedCase{
-	{Name: "empty", WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
+	{Name: "empty", WantTrack: -1, WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
 		Doc:   "zero bytes: a file created but never written",
 		build: func(*rng, []byte) []byte { return []byte{} }},
-	{Name: "random-bytes", WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
+	{Name: "random-bytes", WantTrack: -1, WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
 		Doc: "64 to 512 random bytes that do not begin with MThd or RIFF",
 		build: func(r *rng, _ []byte) []byte {
 			b := make([]byte, r.between(64, 512))
@@ -44,25 +47,25 @@ var damagedCases = []DamagedCase{
 			}
 			return b
 		}},
-	{Name: "bad-magic", WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
+	{Name: "bad-magic", WantTrack: -1, WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
 		Doc:   "a good file whose header id reads \"MTHd\" (a case-mangling transfer)",
 		build: func(_ *rng, g []byte) []byte { b := clone(g); b[2] = 'H'; return b }},
-	{Name: "bad-header-format", WantErr: "ErrBadHeader", WantText: "byte 8: bad header: format 3", Ext: ".mid",
+	{Name: "bad-header-format", WantTrack: -1, WantErr: "ErrBadHeader", WantText: "byte 8: bad header: format 3", Ext: ".mid",
 		Doc:   "the header's format field is 3; SMF 1.0 defines only 0, 1 and 2",
 		build: func(_ *rng, g []byte) []byte { b := clone(g); binary.BigEndian.PutUint16(b[8:], 3); return b }},
-	{Name: "bad-header-length", WantErr: "ErrBadHeader", WantText: "byte 4: bad header: header length 4", Ext: ".mid",
+	{Name: "bad-header-length", WantTrack: -1, WantErr: "ErrBadHeader", WantText: "byte 4: bad header: header length 4", Ext: ".mid",
 		Doc:   "the header chunk declares 4 bytes; SMF 1.0 requires at least 6",
 		build: func(_ *rng, g []byte) []byte { b := clone(g); binary.BigEndian.PutUint32(b[4:], 4); return b }},
-	{Name: "zero-tracks", WantErr: "ErrNoTracks", WantText: "byte 10: zero tracks", Ext: ".mid",
+	{Name: "zero-tracks", WantTrack: -1, WantErr: "ErrNoTracks", WantText: "byte 10: zero tracks", Ext: ".mid",
 		Doc:   "the header declares 0 tracks",
 		build: func(_ *rng, g []byte) []byte { b := clone(g); binary.BigEndian.PutUint16(b[10:], 0); return b }},
-	{Name: "zero-division", WantErr: "ErrZeroDivision", WantText: "byte 12: zero division", Ext: ".mid",
+	{Name: "zero-division", WantTrack: -1, WantErr: "ErrZeroDivision", WantText: "byte 12: zero division", Ext: ".mid",
 		Doc:   "the header's division is 0 ticks per quarter note",
 		build: func(_ *rng, g []byte) []byte { b := clone(g); binary.BigEndian.PutUint16(b[12:], 0); return b }},
-	{Name: "truncated-header", WantErr: "ErrTruncated", WantText: "byte 11: truncated", Ext: ".mid",
+	{Name: "truncated-header", WantTrack: -1, WantErr: "ErrTruncated", WantText: "byte 11: truncated", Ext: ".mid",
 		Doc:   "only the first 11 bytes: the file ends inside the header chunk",
 		build: func(_ *rng, g []byte) []byte { return clone(g[:11]) }},
-	{Name: "truncated-mid-track", WantErr: "ErrChunkLength", WantText: "track 1: byte ", Ext: ".mid",
+	{Name: "truncated-mid-track", WantTrack: 1, WantErr: "ErrChunkLength", WantText: "chunk length past end of data", Ext: ".mid",
 		Doc: "cut off in the middle of track 1, so its declared chunk length runs past the end of the file " +
 			"(error at the length field, byte 4 of the chunk)",
 		build: func(r *rng, g []byte) []byte {
@@ -70,34 +73,34 @@ var damagedCases = []DamagedCase{
 			t := sp[1]
 			return clone(g[:t[0]+8+(t[1]-t[0]-8)/2])
 		}},
-	{Name: "truncated-between-tracks", WantErr: "ErrTruncated", WantText: "file ends after 2", Ext: ".mid",
-		Doc:   "cut off just after track 1 of a file whose header declares more tracks",
+	{Name: "truncated-between-tracks", WantTrack: 2, WantErr: "ErrTruncated", WantText: "truncated: header declares", Ext: ".mid",
+		Doc:   "cut off just after track 1 of a file whose header declares more tracks (the error names track 2, the first missing one)",
 		build: func(_ *rng, g []byte) []byte { return clone(g[:chunkSpans(g)[1][1]]) }},
-	{Name: "chunk-length-past-end", WantErr: "ErrChunkLength", WantText: "track 0: byte 18: chunk length past end of data: chunk length 268435455", Ext: ".mid",
+	{Name: "chunk-length-past-end", WantTrack: 0, WantErr: "ErrChunkLength", WantText: "byte 18: chunk length past end of data: chunk length 268435455", Ext: ".mid",
 		Doc: "track 0's chunk length field reads 0x0FFFFFFF, far past the end of the file",
 		build: func(_ *rng, g []byte) []byte {
 			b := clone(g)
 			binary.BigEndian.PutUint32(b[18:], 0x0FFFFFFF)
 			return b
 		}},
-	{Name: "bad-vlq", WantErr: "ErrBadVLQ", WantText: "track 1: byte ", Ext: ".mid",
+	{Name: "bad-vlq", WantTrack: 1, WantErr: "ErrBadVLQ", WantText: "delta time longer than 4 bytes", Ext: ".mid",
 		Doc: "track 1 begins with a delta time of five bytes (80 80 80 80 00); SMF 1.0 caps " +
 			"variable-length quantities at four",
 		build: func(_ *rng, g []byte) []byte {
 			return spliceTrack(g, 1, []byte{0x80, 0x80, 0x80, 0x80, 0x00, 0x90, 60, 100})
 		}},
-	{Name: "no-running-status", WantErr: "ErrRunningStatus", WantText: "track 1: byte ", Ext: ".mid",
+	{Name: "no-running-status", WantTrack: 1, WantErr: "ErrRunningStatus", WantText: "data byte with no running status", Ext: ".mid",
 		Doc: "track 1's first event is a data byte (3C 64) with no status byte before it",
 		build: func(_ *rng, g []byte) []byte {
 			return spliceTrack(g, 1, []byte{0x00, 0x3C, 0x64})
 		}},
-	{Name: "unterminated-sysex", WantErr: "ErrUnterminatedSysEx", WantText: "SysEx not ended by F7 before end of track", Ext: ".mid",
+	{Name: "unterminated-sysex", WantTrack: 1, WantErr: "ErrUnterminatedSysEx", WantText: "SysEx not ended by F7 before end of track", Ext: ".mid",
 		Doc: "track 1 begins with a SysEx (F0 04 7E 7F 09 01, General MIDI System On without its F7) " +
 			"that no F7 continuation ever ends",
 		build: func(_ *rng, g []byte) []byte {
 			return spliceTrack(g, 1, []byte{0x00, 0xF0, 0x04, 0x7E, 0x7F, 0x09, 0x01})
 		}},
-	{Name: "not-gzip", WantErr: "ErrNotGzip", WantText: "not gzip data", Ext: ".mid.gz",
+	{Name: "not-gzip", WantTrack: -1, WantErr: "ErrNotGzip", WantText: "not gzip data", Ext: ".mid.gz",
 		Doc:   "a plain, good SMF named .mid.gz: it does not begin with the gzip magic 1F 8B (RFC 1952)",
 		build: func(_ *rng, g []byte) []byte { return clone(g) }},
 }

@@ -72,8 +72,9 @@ func TestDamagedParse(t *testing.T) {
 			t.Fatalf("case %s: unknown sentinel %s", c.Name, c.WantErr)
 		}
 		_, err := ingest.Parse(f.Path, f.Data, ingest.DefaultParseOptions())
-		if !errors.Is(err, want) || !strings.Contains(err.Error(), c.WantText) || !strings.Contains(err.Error(), f.Path) {
-			t.Errorf("%s: Parse error %v, want %s containing %q and the file name", f.Path, err, c.WantErr, c.WantText)
+		var pe *ingest.ParseError
+		if !errors.Is(err, want) || !strings.Contains(err.Error(), c.WantText) || !errors.As(err, &pe) || pe.File != f.Path || pe.Track != c.WantTrack {
+			t.Errorf("%s: Parse error %v, want %s containing %q naming the file and track %d", f.Path, err, c.WantErr, c.WantText, c.WantTrack)
 		}
 	}
 }

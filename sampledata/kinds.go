@@ -85,6 +85,15 @@ func forms(r *rng) string { return pick(r, []string{"AABA", "ABA", "AB", "ABAB",
 // events on every beat, onsets spread by human timing, velocity dynamics and
 // sustain pedal.
 func composePerformance(r *rng, ppq int64) *score {
+	s, bars := scorePerformance(r)
+	s.resample(ppq)
+	perform(r, s, bars, ppq, 0)
+	return s
+}
+
+// scorePerformance composes the written (quantized) score of a solo piano piece,
+// with its rubato tempo map, at 960 ticks per quarter.
+func scorePerformance(r *rng) (*score, []bar) {
 	k := randomKey(r, 40)
 	num, den := 4, 4
 	switch r.weighted([]int{50, 30, 20}) {
@@ -130,9 +139,7 @@ func composePerformance(r *rng, ppq int64) *score {
 			{name: "left hand", program: prog, notes: lh, volume: 100, pan: 64},
 		}
 	}
-	s.resample(ppq)
-	perform(r, s, bars, ppq, 0)
-	return s
+	return s, bars
 }
 
 // composeLeftHand writes a piano accompaniment suited to the meter: Alberti figures,
@@ -305,7 +312,6 @@ func perform(r *rng, s *score, bars []bar, ppq int64, sigma int) {
 				n.end = n.start + ppq/32 + 1
 			}
 		}
-		slices.SortFunc(p.notes, func(a, b note) int { return cmpInt(a.start, b.start) })
 	}
 	if r.chance(85) {
 		down := uint8(pick(r, []int{127, 127, 127, 100, 110}))

@@ -20,22 +20,21 @@ type layout struct {
 
 // Wire constants of the messages written (SMF 1.0 and MIDI 1.0).
 const (
-	statusNoteOff    = 0x80
-	statusNoteOn     = 0x90
-	statusCC         = 0xB0
-	statusProgram    = 0xC0
-	metaText         = 0x01
-	metaCopyright    = 0x02
-	metaTrackName    = 0x03
-	metaTempo        = 0x51 // 3 bytes: µs per quarter note
-	metaTimeSig      = 0x58 // nn dd cc bb
-	metaKeySig       = 0x59 // sf mi
-	ccVolume         = 7
-	ccPan            = 10
-	ccSustain        = 64
-	drumChannel      = 9 // channel 10, General MIDI 1
-	releaseVelocity  = 64
-	maxSMPTETickRate = 30 * 100
+	statusNoteOff   = 0x80
+	statusNoteOn    = 0x90
+	statusCC        = 0xB0
+	statusProgram   = 0xC0
+	metaText        = 0x01
+	metaCopyright   = 0x02
+	metaTrackName   = 0x03
+	metaTempo       = 0x51 // 3 bytes: µs per quarter note
+	metaTimeSig     = 0x58 // nn dd cc bb
+	metaKeySig      = 0x59 // sf mi
+	ccVolume        = 7
+	ccPan           = 10
+	ccSustain       = 64
+	drumChannel     = 9 // channel 10, General MIDI 1
+	releaseVelocity = 64
 )
 
 // Event ordering at one tick: meta first, then setup, note-offs before note-ons so a
@@ -51,6 +50,7 @@ const (
 type event struct {
 	tick   int64
 	prio   uint8
+	seq    int32 // insertion order, the last sort key, so the order is total
 	off, n int32 // the message bytes in the arena
 }
 
@@ -61,26 +61,35 @@ type trackBuilder struct {
 }
 
 func (tb *trackBuilder) add(tick int64, prio uint8, msg ...byte) {
-	tb.evs = append(tb.evs, event{tick: tick, prio: prio, off: int32(len(tb.arena)), n: int32(len(msg))})
+	tb.evs = append(tb.evs, event{tick: tick, prio: prio, seq: int32(len(tb.evs)), off: int32(len(tb.arena)), n: int32(len(msg))})
 	tb.arena = append(tb.arena, msg...)
+}
+
+// grow makes room for about n more channel events.
+func (tb *trackBuilder) grow(n int) {
+	tb.evs = slices.Grow(tb.evs, n)
+	tb.arena = slices.Grow(tb.arena, 3*n)
 }
 
 func (tb *trackBuilder) meta(tick int64, typ byte, data []byte) {
 	if len(data) > 127 {
 		data = data[:127] // one-byte VLQ length
 	}
-	tb.evs = append(tb.evs, event{tick: tick, prio: prioMeta, off: int32(len(tb.arena)), n: int32(3 + len(data))})
+	tb.evs = append(tb.evs, event{tick: tick, prio: prioMeta, seq: int32(len(tb.evs)), off: int32(len(tb.arena)), n: int32(3 + len(data))})
 	tb.arena = append(tb.arena, 0xFF, typ, byte(len(data)))
 	tb.arena = append(tb.arena, data...)
 }
 
 // track sorts the events and returns them as a closed gomidi track ending at end.
 func (tb *trackBuilder) track(end int64) smf.Track {
-	slices.SortStableFunc(tb.evs, func(a, b event) int {
+	slices.SortFunc(tb.evs, func(a, b event) int {
 		if c := cmpInt(a.tick, b.tick); c != 0 {
 			return c
 		}
-		return int(a.prio) - int(b.prio)
+		if a.prio != b.prio {
+			return int(a.prio) - int(b.prio)
+		}
+		return int(a.seq - b.seq)
 	})
 	tr := make(smf.Track, 0, len(tb.evs)+1)
 	var last int64
@@ -110,8 +119,8 @@ func timeConv(s *score, lay layout) func(int64) int64 {
 		cum[i] = cum[i-1] + (ts[i].tick-ts[i-1].tick)*ts[i-1].us/s.ppq
 	}
 	num, den := int64(lay.fps*lay.tpf), int64(1_000_000)
-	if lay.fps == 29 { // 30 drop-frame runs at 29.97 frames per second (SMPTE 12M)
-		num, den = int64(2997*lay.tpf), 100_000_000
+	if lay.fps == 29 { // 30 drop-frame runs at 30000/1001 ≈ 29.97 frames per second (SMPTE 12M)
+		num, den = int64(30_000*lay.tpf), 1001*1_000_000
 	}
 	return func(t int64) int64 {
 		i, found := slices.BinarySearchFunc(ts, t, func(tc tempoAt, t int64) int { return cmpInt(tc.tick, t) })
@@ -156,15 +165,21 @@ func writeScore(s *score, lay layout, meta *trackBuilder, partTrack func(int) *t
 	type placed struct {
 		start, end int64
 		part       int
+		seq        int // place in the part, the last sort key, so the order is total
 		n          note
 	}
-	var all []placed
-	for pi, p := range s.parts {
-		for _, n := range p.notes {
-			all = append(all, placed{start: conv(n.start), end: conv(n.end), part: pi, n: n})
-		}
+	count := 0
+	for _, p := range s.parts {
+		count += len(p.notes)
 	}
-	slices.SortStableFunc(all, func(a, b placed) int {
+	all := make([]placed, 0, count)
+	for pi, p := range s.parts {
+		for i, n := range p.notes {
+			all = append(all, placed{start: conv(n.start), end: conv(n.end), part: pi, seq: i, n: n})
+		}
+		partTrack(pi).grow(2*len(p.notes) + len(p.ccs) + 4)
+	}
+	slices.SortFunc(all, func(a, b placed) int {
 		ca, cb := s.parts[a.part].channel, s.parts[b.part].channel
 		if ca != cb {
 			return int(ca) - int(cb)
@@ -172,7 +187,13 @@ func writeScore(s *score, lay layout, meta *trackBuilder, partTrack func(int) *t
 		if a.n.pitch != b.n.pitch {
 			return int(a.n.pitch) - int(b.n.pitch)
 		}
-		return cmpInt(a.start, b.start)
+		if c := cmpInt(a.start, b.start); c != 0 {
+			return c
+		}
+		if a.part != b.part {
+			return a.part - b.part
+		}
+		return a.seq - b.seq
 	})
 	for i := 0; i+1 < len(all); i++ {
 		a, b := &all[i], &all[i+1]
