@@ -13,10 +13,18 @@ import (
 // and 1 they come from every track. name is used in errors, which are *ParseError
 // values wrapping the Err* sentinels.
 //
-// Notes are sorted by (StartTick, Track, Channel, Pitch) and carry seconds through
-// the tempo map (see TimeMap); pairing, pedal and program rules are described in
-// notes.go's package-level comment and in the README of the parser, DEVELOPERS.md.
-// Parse never panics on bad input, and allocates a small multiple of len(data).
+// Notes are sorted by (StartTick, Track, Channel, Pitch), ties by EndTick and
+// Velocity, and carry seconds through the tempo map (see TimeMap). Pairing: per
+// (track, channel, pitch); note-on with velocity 0 is a note-off; a note-on of a
+// sounding pitch ends the earlier note there (WarnRetrigger); notes open at the end
+// of their track end there (WarnOpenAtEnd); zero-length notes are kept
+// (WarnZeroLength). With opts.Pedal, sustain (CC 64 >= 64) held on a (track,
+// channel) extends its notes to the release. Program changes act per channel across
+// tracks in time order; channel index 9 is drums (General MIDI 1). See notes.go for
+// the details, Reader for what the event reader accepts.
+//
+// Parse never panics on bad input. It allocates about 16 bytes per input byte at
+// most (a 48-byte Note per 3-byte running-status note-on), usually under 6.
 func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
 	ps := parserPool.Get().(*parser)
 	defer ps.release()
@@ -102,6 +110,9 @@ func (ps *parser) release() {
 
 // begin starts a new piece.
 func (ps *parser) begin() {
+	if want := len(ps.r.data) / 16; cap(ps.pair.buf) < want {
+		ps.pair.buf = make([]rawNote, 0, want) // a guess that saves the first regrowths
+	}
 	ps.pair.buf = ps.pair.buf[:0]
 	ps.pair.usePed = ps.opts.Pedal
 	ps.pair.retrigger, ps.pair.orphanOff, ps.pair.openAtEnd = 0, 0, 0

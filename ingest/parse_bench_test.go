@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"sort"
 	"testing"
+	"time"
 
 	gsmf "gitlab.com/gomidi/midi/v2/smf"
 )
@@ -52,6 +53,21 @@ func loadBenchCorpus(b *testing.B) [][]byte {
 	return files
 }
 
+// cpuMeter reports CPU time per op (user+system, all threads: GC included) as
+// "cpu-ns/op", alongside the wall-clock ns/op.
+type cpuMeter struct {
+	b     *testing.B
+	start time.Duration
+}
+
+func startCPU(b *testing.B) cpuMeter { return cpuMeter{b, processCPU()} }
+
+func (m cpuMeter) stop() {
+	if d := processCPU() - m.start; d > 0 {
+		m.b.ReportMetric(float64(d.Nanoseconds())/float64(m.b.N), "cpu-ns/op")
+	}
+}
+
 func corpusSize(files [][]byte) int64 {
 	var n int64
 	for _, f := range files {
@@ -66,6 +82,8 @@ func BenchmarkReadBytes(b *testing.B) {
 	paths := openttdPaths()
 	b.SetBytes(corpusSize(files))
 	b.ReportAllocs()
+	cpu := startCPU(b)
+	defer cpu.stop()
 	for b.Loop() {
 		for _, p := range paths {
 			if _, err := os.ReadFile(p); err != nil {
@@ -80,6 +98,8 @@ func BenchmarkGomidiReadFrom(b *testing.B) {
 	files := loadBenchCorpus(b)
 	b.SetBytes(corpusSize(files))
 	b.ReportAllocs()
+	cpu := startCPU(b)
+	defer cpu.stop()
 	for b.Loop() {
 		for _, f := range files {
 			if _, err := gsmf.ReadFrom(bytes.NewReader(f)); err != nil {
@@ -95,6 +115,8 @@ func BenchmarkParse(b *testing.B) {
 	b.SetBytes(corpusSize(files))
 	b.ReportAllocs()
 	opts := DefaultParseOptions()
+	cpu := startCPU(b)
+	defer cpu.stop()
 	for b.Loop() {
 		for _, f := range files {
 			if _, err := Parse("bench.mid", f, opts); err != nil {
@@ -111,6 +133,8 @@ func BenchmarkReaderOnly(b *testing.B) {
 	b.ReportAllocs()
 	var r Reader
 	events := 0
+	cpu := startCPU(b)
+	defer cpu.stop()
 	for b.Loop() {
 		for _, f := range files {
 			if err := r.Reset("bench.mid", f, 0); err != nil {

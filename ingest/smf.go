@@ -307,7 +307,7 @@ func (r *Reader) stop(err error) bool {
 // Next reads the next event of the current track. It returns false at the end of
 // the track (after End of Track, or at the end of the chunk) or on error.
 func (r *Reader) Next() bool {
-	p, end, d := r.pos, r.end, r.data
+	p, end := r.pos, r.end
 	if p >= end {
 		// end of chunk, after End of Track, after an error or outside a track
 		if r.inTrack && !r.eot && r.err == nil {
@@ -318,24 +318,29 @@ func (r *Reader) Next() bool {
 	if r.events >= r.maxEvents {
 		return r.stop(r.fail(r.track, p, errorf(ErrTooManyEvents, "more than %d events in one track", r.maxEvents)))
 	}
-	// delta time
+	d := r.data[:end] // len(d) is the end of the chunk: lets the compiler drop bounds checks
+	// delta time; one byte in the common case
 	vstart := p
-	var delta uint32
-	for i := 0; ; i++ {
-		if p >= end {
-			return r.stop(r.fail(r.track, vstart, errorf(ErrTruncated, "delta time runs past end of track chunk")))
-		}
-		b := d[p]
-		p++
-		delta = delta<<7 | uint32(b&^vlqMore)
-		if b < vlqMore {
-			break
-		}
-		if i == vlqMaxBytes-1 {
-			return r.stop(r.fail(r.track, vstart, errorf(ErrBadVLQ, "delta time longer than %d bytes", vlqMaxBytes)))
+	delta := uint32(d[p])
+	p++
+	if delta >= vlqMore {
+		delta &^= vlqMore
+		for i := 1; ; i++ {
+			if p >= len(d) {
+				return r.stop(r.fail(r.track, vstart, errorf(ErrTruncated, "delta time runs past end of track chunk")))
+			}
+			b := d[p]
+			p++
+			delta = delta<<7 | uint32(b&^vlqMore)
+			if b < vlqMore {
+				break
+			}
+			if i == vlqMaxBytes-1 {
+				return r.stop(r.fail(r.track, vstart, errorf(ErrBadVLQ, "delta time longer than %d bytes", vlqMaxBytes)))
+			}
 		}
 	}
-	if p >= end {
+	if p >= len(d) {
 		return r.stop(r.fail(r.track, p, errorf(ErrTruncated, "event missing after delta time")))
 	}
 	ev := &r.ev
@@ -364,7 +369,7 @@ func (r *Reader) Next() bool {
 		}
 		typ := status & statusTypeMask
 		if typ == statusProgram || typ == statusChanTouch {
-			if end-p < 1 {
+			if len(d)-p < 1 {
 				return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "channel message runs past end of track chunk")))
 			}
 			d1 := d[p]
@@ -374,7 +379,7 @@ func (r *Reader) Next() bool {
 			ev.Data1, ev.Data2 = d1, 0
 			p++
 		} else {
-			if end-p < 2 {
+			if len(d)-p < 2 {
 				return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "channel message runs past end of track chunk")))
 			}
 			d1, d2 := d[p], d[p+1]
@@ -395,7 +400,7 @@ func (r *Reader) Next() bool {
 			ev.Data = nil
 		}
 	case status == statusSysEx || status == statusEscape:
-		n, q, ok := r.length(p, end)
+		n, q, ok := r.length(p, len(d))
 		if !ok {
 			return false
 		}
@@ -421,11 +426,11 @@ func (r *Reader) Next() bool {
 		}
 		r.cancel = true
 	case status == statusMeta:
-		if p >= end {
+		if p >= len(d) {
 			return r.stop(r.fail(r.track, int(ev.Offset-r.base), errorf(ErrTruncated, "meta event runs past end of track chunk")))
 		}
 		typ := d[p]
-		n, q, ok := r.length(p+1, end)
+		n, q, ok := r.length(p+1, len(d))
 		if !ok {
 			return false
 		}
