@@ -11,25 +11,25 @@ import (
 
 // Stats counts what encoding one variant of a piece did to its notes.
 type Stats struct {
-	Notes        int // notes in the piece
-	Encoded      int // notes in the stream
-	DrumsDropped int // drum notes left out (drums: drop)
-	OutOfRange   int // notes transposed out of 0-127, left out
-	// Merged counts notes dropped because another note of the same key (and, in the
-	// grid, nothing else) starts at the same quantized time; the longest is kept
-	// (performance only: a key cannot sound twice in one event stream).
-	Merged int
+	Notes        int `json:"notes"`         // notes in the piece
+	Encoded      int `json:"encoded"`       // notes in the stream
+	DrumsDropped int `json:"drums_dropped"` // drum notes left out (drums: drop)
+	OutOfRange   int `json:"out_of_range"`  // notes transposed out of 0-127, left out
+	// Merged counts performance notes dropped because another note of the same key
+	// starts at the same quantized time (a key cannot sound twice in one event
+	// stream); the longest is kept.
+	Merged int `json:"merged"`
 	// Retriggered counts performance notes cut short because a later note of the
 	// same key starts before they end (the earlier note ends at the later onset).
-	Retriggered int
-	Clipped     int // grid notes longer than max_duration_steps, clipped to it
-	Lengthened  int // grid notes shorter than one step, lengthened to one step
+	Retriggered int `json:"retriggered"`
+	Clipped     int `json:"clipped"`    // grid notes longer than max_duration_steps, clipped to it
+	Lengthened  int `json:"lengthened"` // grid notes shorter than one step, lengthened to one step
 	// MetersMoved counts grid meter changes that fall inside a bar; they take
 	// effect at the next bar line.
-	MetersMoved int
+	MetersMoved int `json:"meters_moved"`
 	// MetersUnsupported counts meters with no grid token; 4/4 bars are used instead.
-	MetersUnsupported int
-	Tokens            int // tokens in the stream
+	MetersUnsupported int `json:"meters_unsupported"`
+	Tokens            int `json:"tokens"` // tokens in the stream
 }
 
 // Errors of the encoder.
