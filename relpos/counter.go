@@ -134,13 +134,17 @@ func (c *Counter) Config() Config { return c.cfg }
 // Schemes returns the schemes of an offset kind in config order.
 func (c *Counter) Schemes(k Kind) []*Scheme { return c.schemes[k] }
 
-// budgetClip returns the largest clip whose rows fit the budget, or −1.
-func (c *Counter) budgetClip() int {
+// oneSided reports whether the offsets of kind k are all ≤ 0: token distance and time
+// of causal pairs. Pitch offsets take both signs in either mode.
+func (c *Counter) oneSided(k Kind) bool { return c.cfg.Pairs == Causal && k != Pitch }
+
+// budgetClip returns the largest clip whose rows fit the budget for kind k, or −1.
+func (c *Counter) budgetClip(k Kind) int {
 	b := c.cfg.Budget
 	if b <= 0 {
 		return -1
 	}
-	if c.cfg.Pairs == Causal {
+	if c.oneSided(k) {
 		return b - 1 // buckets −k..0 are the only ones causal pairs reach
 	}
 	return (b - 1) / 2
@@ -148,7 +152,7 @@ func (c *Counter) budgetClip() int {
 
 // budgetMags returns, per budget width w, the largest magnitude inside clip k: (k+1)w − 1.
 func (c *Counter) budgetMags(k Kind) []int64 {
-	clip := c.budgetClip()
+	clip := c.budgetClip(k)
 	if clip < 0 {
 		return nil
 	}

@@ -102,6 +102,8 @@ type SchemeReport struct {
 	SatLow  int64   `json:"sat_low"`
 	SatHigh int64   `json:"sat_high"`
 	Buckets []int64 `json:"buckets"` // pairs per bucket id
+	// Offsets are the offsets of each bucket id, [from, to] with null for an open end.
+	Offsets [][2]*int64 `json:"offsets"`
 	// Shares of Pairs.
 	InsideShare  float64   `json:"inside_share"`
 	SatLowShare  float64   `json:"sat_low_share"`
@@ -128,7 +130,7 @@ type Recommendation struct {
 	Target   float64 `json:"target"`
 	Clip     int64   `json:"clip"`
 	ClipHigh int64   `json:"clip_high"`
-	Rows     int64   `json:"rows"` // embedding rows the pairs mode reaches: k+1 causal, 2k+1 bidirectional
+	Rows     int64   `json:"rows"` // embedding rows the pairs reach: k+1 for causal distance and time, else 2k+1
 	Exact    bool    `json:"exact"`
 }
 
@@ -148,6 +150,9 @@ type JointReport struct {
 	PitchScheme string    `json:"pitch_scheme"`
 	Pairs       int64     `json:"pairs"`
 	Counts      [][]int64 `json:"counts"` // [time bucket][pitch bucket]
+	// Offsets of each time and pitch bucket, [from, to] with null for an open end.
+	TimeOffsets  [][2]*int64 `json:"time_offsets"`
+	PitchOffsets [][2]*int64 `json:"pitch_offsets"`
 }
 
 // rank is the number of pairs a share p of n must reach: the smallest integer ≥ p·n,
@@ -178,7 +183,8 @@ func (c *Counter) Report(t *Tally, timeUnit string) *Report {
 		}
 	}
 	if c.jointT != nil {
-		j := &JointReport{TimeScheme: c.jointT.Name, PitchScheme: c.jointP.Name}
+		j := &JointReport{TimeScheme: c.jointT.Name, PitchScheme: c.jointP.Name,
+			TimeOffsets: bucketOffsets(c.jointT), PitchOffsets: bucketOffsets(c.jointP)}
 		np := c.jointP.Buckets()
 		for b := range c.jointT.Buckets() {
 			row := append([]int64(nil), t.joint[b*np:(b+1)*np]...)
@@ -238,13 +244,13 @@ func (c *Counter) kindReport(v *view, k Kind) KindReport {
 			q := v.quantile(target)
 			lo, hi := q.Low/int64(w), q.Value/int64(w)
 			kr.Recommend = append(kr.Recommend, Recommendation{Width: w, Target: target, Clip: lo, ClipHigh: hi,
-				Rows: c.rows(hi), Exact: lo == hi})
+				Rows: c.rows(hi, k), Exact: lo == hi})
 		}
 	}
-	if clip := c.budgetClip(); clip >= 0 && v.pairs > 0 {
+	if clip := c.budgetClip(k); clip >= 0 && v.pairs > 0 {
 		for _, w := range c.cfg.BudgetWidths.of(k) {
 			n := v.absAtMost(int64(clip+1)*int64(w) - 1)
-			f := BudgetFit{Width: w, Clip: clip, Rows: int(c.rows(int64(clip))), Inside: float64(n) / float64(v.pairs)}
+			f := BudgetFit{Width: w, Clip: clip, Rows: int(c.rows(int64(clip), k)), Inside: float64(n) / float64(v.pairs)}
 			if v.sampled {
 				ci := wilson(n, v.pairs, c.cfg.Confidence)
 				f.CI = &ci
@@ -255,9 +261,9 @@ func (c *Counter) kindReport(v *view, k Kind) KindReport {
 	return kr
 }
 
-// rows is the number of embedding rows the pairs reach with clip k.
-func (c *Counter) rows(k int64) int64 {
-	if c.cfg.Pairs == Causal {
+// rows is the number of embedding rows the pairs of kind reach with clip k.
+func (c *Counter) rows(k int64, kind Kind) int64 {
+	if c.oneSided(kind) {
 		return k + 1
 	}
 	return 2*k + 1
@@ -266,6 +272,7 @@ func (c *Counter) rows(k int64) int64 {
 func (c *Counter) schemeReport(s *Scheme, sc SchemeCounts, sampled bool) SchemeReport {
 	r := SchemeReport{Name: s.Name, Scheme: s.Type, Pairs: sc.Pairs, Inside: sc.Inside, SatLow: sc.SatLow,
 		SatHigh: sc.SatHigh, Buckets: sc.Buckets, BucketShares: make([]float64, len(sc.Buckets)), Unused: []int{}}
+	r.Offsets = bucketOffsets(s)
 	share := func(n int64) float64 {
 		if sc.Pairs == 0 {
 			return 0
@@ -330,4 +337,33 @@ func (v *view) quantile(p float64) Quantile {
 	q.Value, q.Low = v.maxAbs, prev+1
 	q.Exact = q.Low == q.Value
 	return q
+}
+
+// bucketOffsets returns the offset range of each bucket id (the hull of its segments).
+func bucketOffsets(s *Scheme) [][2]*int64 {
+	out := make([][2]*int64, s.Buckets())
+	set := make([]bool, s.Buckets())
+	for _, g := range s.segs {
+		var lo, hi *int64
+		if g.Lo != math.MinInt64 {
+			v := g.Lo
+			lo = &v
+		}
+		if g.Hi != math.MaxInt64 {
+			v := g.Hi
+			hi = &v
+		}
+		b := g.Bucket
+		if !set[b] {
+			out[b], set[b] = [2]*int64{lo, hi}, true
+			continue
+		}
+		if lo == nil || (out[b][0] != nil && *lo < *out[b][0]) {
+			out[b][0] = lo
+		}
+		if hi == nil || (out[b][1] != nil && *hi > *out[b][1]) {
+			out[b][1] = hi
+		}
+	}
+	return out
 }

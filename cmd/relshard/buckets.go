@@ -86,15 +86,25 @@ func (f *relposFlags) apply(fs *pflag.FlagSet, cfg *relpos.Config) error {
 		if fs.Changed("budget") {
 			cfg.Budget = f.budget
 		}
-		if fs.Changed("sample") {
-			cfg.Sample = f.sample
-		}
-		if fs.Changed("seed") {
-			cfg.Seed = f.seed
-		}
-		if fs.Changed("confidence") {
-			cfg.Confidence = f.confidence
-		}
+	}
+	if err := cfg.Validate(); err != nil {
+		return usageError("%v", err)
+	}
+	return nil
+}
+
+// applySampling sets in cfg the sampling flags given; export counts every pair, so
+// these apply to the coverage and sweep reports only, after the export config is
+// validated.
+func (f *relposFlags) applySampling(fs *pflag.FlagSet, cfg *relpos.Config) error {
+	if fs.Changed("sample") {
+		cfg.Sample = f.sample
+	}
+	if fs.Changed("seed") {
+		cfg.Seed = f.seed
+	}
+	if fs.Changed("confidence") {
+		cfg.Confidence = f.confidence
 	}
 	if err := cfg.Validate(); err != nil {
 		return usageError("%v", err)
