@@ -157,6 +157,7 @@ type Auditor struct {
 	counter  *relpos.Counter
 	datasets map[string]*dsAcc
 	files    []File
+	skipped  []Skipped
 	seq      int64
 
 	sc     pieceScratch
@@ -206,18 +207,19 @@ func (a *Auditor) dataset(name string) *dsAcc {
 	return d
 }
 
-// AddRecord counts one input file of a dataset by its ingest status; call it once
-// per file, before or after its pieces.
-func (a *Auditor) AddRecord(dataset string, status ingest.Status) {
+// AddRecord counts one input file of a dataset by its ingest record; call it once
+// per file, before or after its pieces. Skipped files are listed with their reason.
+func (a *Auditor) AddRecord(dataset string, rec *ingest.FileRecord) {
 	d := a.dataset(dataset)
 	d.files++
-	switch status {
+	switch rec.Status {
 	case ingest.StatusOK:
 		d.read++
 	case ingest.StatusDuplicate:
 		d.dups++
 	default:
 		d.skipped++
+		a.skipped = append(a.skipped, Skipped{Dataset: dataset, Path: rec.Path, Reason: rec.Reason})
 	}
 }
 
@@ -303,6 +305,7 @@ func (a *Auditor) Merge(b *Auditor) {
 		a.dataset(name).merge(bd)
 	}
 	a.files = append(a.files, b.files...)
+	a.skipped = append(a.skipped, b.skipped...)
 }
 
 // Report builds the report of everything added so far.
@@ -319,6 +322,7 @@ func (a *Auditor) Report() *Report {
 		Comparisons: []Comparison{},
 		Outliers:    []Outlier{},
 		Coverage:    []Coverage{},
+		Skipped:     append([]Skipped{}, a.skipped...),
 	}
 	if r.TimeUnit == "grid" {
 		r.TimeUnit = "grid steps"

@@ -16,9 +16,18 @@ type Report struct {
 	Outliers    []Outlier    `json:"outliers"`
 	Coverage    []Coverage   `json:"coverage"`
 	Files       []File       `json:"files"`
+	// Skipped lists the input files ingest skipped, in scan order, with the reason.
+	Skipped []Skipped `json:"skipped"`
 	// Schemes are the bucket schemes drawn on the charts, with their edges in the unit
 	// of their offset kind.
 	Schemes []Scheme `json:"schemes"`
+}
+
+// Skipped is an input file that was not audited.
+type Skipped struct {
+	Dataset string `json:"dataset"`
+	Path    string `json:"path"`
+	Reason  string `json:"reason"`
 }
 
 // Settings records the parameters a report was made with.

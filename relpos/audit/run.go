@@ -59,7 +59,7 @@ func Run(ctx context.Context, sources []ingest.Source, cfg Config) (*Report, err
 		var seq int64
 		return ingest.Scan(gctx, sources, cfg.Scan, func(r *ingest.Result) error {
 			ds := datasetOf(&r.Record, byFolder)
-			records.AddRecord(ds, r.Record.Status)
+			records.AddRecord(ds, &r.Record)
 			seq++
 			if len(r.Pieces) == 0 {
 				return nil

@@ -134,6 +134,13 @@ func (r *Report) WriteText(w io.Writer) error {
 		}
 	}
 
+	if len(r.Skipped) > 0 {
+		ew.section(fmt.Sprintf("Skipped files (%d)", len(r.Skipped)))
+		for _, f := range r.Skipped {
+			ew.printf("%s/%s: %s\n", f.Dataset, f.Path, f.Reason)
+		}
+	}
+
 	ew.section("Files")
 	tw = ew.table()
 	fmt.Fprintln(tw, "dataset\tpath\tpiece\tppq\tnotes\tgrid\ton grid\ttempo BPM\tmeter\tdrums\tΔt div\tΔp div\t")
