@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"runtime"
 
@@ -155,7 +156,7 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 				break
 			}
 			if opts.Strict && r.Record.Status == StatusSkipped && isBadInput(r.Err) {
-				stopErr = r.Err
+				stopErr = fmt.Errorf("%s: %w", r.Record.Source, r.Err)
 				cancel()
 				break
 			}
@@ -260,7 +261,18 @@ func loadEntry(e *entry, opts *Options) ([]byte, error) {
 	return data, nil
 }
 
+// skip marks a result skipped. The reason names the file: a *ParseError does already
+// (with track and byte offset where known); other errors get the path prefixed (the
+// source path for a record about a whole source).
 func skip(r *Result, err error) *Result {
+	var pe *ParseError
+	if !errors.As(err, &pe) {
+		name := r.Record.Path
+		if name == "" {
+			name = r.Record.Source
+		}
+		err = fmt.Errorf("%s: %w", name, err)
+	}
 	r.Record.Status = StatusSkipped
 	r.Record.Reason = err.Error()
 	r.Err = err

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
 	"io/fs"
 	"os"
@@ -351,6 +352,10 @@ func Load(path string, max int64) ([]byte, error) {
 		max = DefaultMaxFileSize
 	}
 	data, err := fileLoader(path, max)()
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return nil, err // names the path already
+	}
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}

@@ -133,8 +133,10 @@ any --workers. The later of two copies is the duplicate: exact (same bytes), mus
 With --json the output is one object: "files", one {dataset, path, status, reason}
 per input file (status ok, skipped or duplicate; duplicates also carry duplicate_of
 and duplicate_kind), "datasets" and "total" with the counts; on a failed run also
-"error". Non-MIDI entries of archives are listed as skipped ("not MIDI") but do not
-by themselves make the exit status 3.
+"error". A damaged archive, or one over the --max-entries or --max-archive-size cap,
+is one entry with an empty path (its own path when inside a folder). Non-MIDI entries
+of archives are listed as skipped ("not MIDI") but do not by themselves make the exit
+status 3.
 ` + exitCodesHelp,
 			RunE: func(cmd *cobra.Command, args []string) error {
 				o.sources = args
@@ -210,7 +212,11 @@ func runScan(ctx context.Context, o *scanOptions, s *streams) error {
 			out.WriteString("\n  ")
 			out.Write(b)
 		case o.files:
-			fmt.Fprintf(out, "%-9s %s/%s", rec.Status, rec.Dataset, rec.Path)
+			name := rec.Dataset + "/" + rec.Path
+			if rec.Path == "" {
+				name = rec.Dataset + " (the whole source " + rec.Source + ")"
+			}
+			fmt.Fprintf(out, "%-9s %s", rec.Status, name)
 			if reason := fileReason(rec); reason != "" {
 				fmt.Fprintf(out, "  (%s)", reason)
 			}
