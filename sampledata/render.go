@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"fmt"
 	"slices"
+	"sync"
 
 	"gitlab.com/gomidi/midi/v2/smf"
 )
@@ -54,11 +55,31 @@ type event struct {
 	off, n int32 // the message bytes in the arena
 }
 
-// trackBuilder collects one track's events with their bytes in one arena.
+// trackBuilder collects one track's events with their bytes in one arena. Builders
+// are pooled: a render takes them, and gives them back once the bytes are written.
 type trackBuilder struct {
 	evs   []event
 	arena []byte
+	tr    smf.Track
 }
+
+var builderPool = sync.Pool{New: func() any { return new(trackBuilder) }}
+
+func getBuilder() *trackBuilder {
+	tb := builderPool.Get().(*trackBuilder)
+	tb.evs, tb.arena, tb.tr = tb.evs[:0], tb.arena[:0], tb.tr[:0]
+	return tb
+}
+
+// placed is a note in file ticks while overlaps are cut.
+type placed struct {
+	start, end int64
+	part       int
+	seq        int // place in the part, the last sort key, so the order is total
+	n          note
+}
+
+var placedPool = sync.Pool{New: func() any { return new([]placed) }}
 
 func (tb *trackBuilder) add(tick int64, prio uint8, msg ...byte) {
 	tb.evs = append(tb.evs, event{tick: tick, prio: prio, seq: int32(len(tb.evs)), off: int32(len(tb.arena)), n: int32(len(msg))})
@@ -91,13 +112,14 @@ func (tb *trackBuilder) track(end int64) smf.Track {
 		}
 		return int(a.seq - b.seq)
 	})
-	tr := make(smf.Track, 0, len(tb.evs)+1)
+	tr := slices.Grow(tb.tr[:0], len(tb.evs)+1)
 	var last int64
 	for _, e := range tb.evs {
 		tr = append(tr, smf.Event{Delta: uint32(e.tick - last), Message: smf.Message(tb.arena[e.off : e.off+e.n])})
 		last = e.tick
 	}
 	tr.Close(uint32(max(0, end-last)))
+	tb.tr = tr
 	return tr
 }
 
@@ -162,17 +184,14 @@ func writeScore(s *score, lay layout, meta *trackBuilder, partTrack func(int) *t
 	end := conv(s.end)
 	// Notes per channel and pitch must not overlap (a note-on of a sounding pitch is
 	// ambiguous): collect them in file ticks, cut overlaps, then write.
-	type placed struct {
-		start, end int64
-		part       int
-		seq        int // place in the part, the last sort key, so the order is total
-		n          note
-	}
 	count := 0
 	for _, p := range s.parts {
 		count += len(p.notes)
 	}
-	all := make([]placed, 0, count)
+	buf := placedPool.Get().(*[]placed)
+	defer placedPool.Put(buf)
+	all := slices.Grow((*buf)[:0], count)
+	defer func() { *buf = all[:0] }()
 	for pi, p := range s.parts {
 		for i, n := range p.notes {
 			all = append(all, placed{start: conv(n.start), end: conv(n.end), part: pi, seq: i, n: n})
@@ -271,17 +290,28 @@ func render(p *piece) ([]byte, error) {
 	file.NoRunningStatus = lay.noRunning
 	text := corpusText(p.kind)
 	var tracks []smf.Track
+	var used []*trackBuilder
+	get := func() *trackBuilder {
+		tb := getBuilder()
+		used = append(used, tb)
+		return tb
+	}
+	defer func() {
+		for _, tb := range used {
+			builderPool.Put(tb)
+		}
+	}()
 	switch lay.format {
 	case 0:
-		tb := &trackBuilder{}
+		tb := get()
 		end := writeScore(p.scores[0], lay, tb, func(int) *trackBuilder { return tb }, text)
 		tracks = append(tracks, tb.track(end))
 	case 1:
 		s := p.scores[0]
-		meta := &trackBuilder{}
+		meta := get()
 		parts := make([]*trackBuilder, len(s.parts))
 		for i := range parts {
-			parts[i] = &trackBuilder{}
+			parts[i] = get()
 		}
 		end := writeScore(s, lay, meta, func(i int) *trackBuilder { return parts[i] }, text)
 		tracks = append(tracks, meta.track(end))
@@ -290,7 +320,7 @@ func render(p *piece) ([]byte, error) {
 		}
 	case 2:
 		for i, s := range p.scores {
-			tb := &trackBuilder{}
+			tb := get()
 			t := ""
 			if i == 0 {
 				t = text
