@@ -195,7 +195,7 @@ func tarStream(path string, gz bool) (*tar.Reader, func() error, error) {
 	zr, err := gzip.NewReader(bufio.NewReaderSize(f, 64<<10))
 	if err != nil {
 		f.Close()
-		return nil, nil, fmt.Errorf("gzip: %w", err)
+		return nil, nil, fmt.Errorf("decompress: %w", err)
 	}
 	return tar.NewReader(zr), f.Close, nil
 }

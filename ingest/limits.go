@@ -97,7 +97,7 @@ func gunzipCapped(data []byte, max int64) ([]byte, error) {
 	}
 	zr, err := gzip.NewReader(bytes.NewReader(data))
 	if err != nil {
-		return nil, fmt.Errorf("gzip: %w", err)
+		return nil, fmt.Errorf("decompress: %w", err)
 	}
 	defer zr.Close()
 	out, err := readCapped(zr, max, 0, fmt.Errorf("gzip: decompressed data over %s: %w", sizeString(max), ErrTooLarge))
@@ -105,7 +105,7 @@ func gunzipCapped(data []byte, max int64) ([]byte, error) {
 		if errors.Is(err, ErrTooLarge) {
 			return nil, err
 		}
-		return nil, fmt.Errorf("gzip: %w", err)
+		return nil, fmt.Errorf("decompress: %w", err)
 	}
 	return out, nil
 }
