@@ -164,6 +164,10 @@ func (r *Reader) TrailingBytes() int {
 // valid once NextTrack has returned false without error.
 func (r *Reader) SMFEnd() int64 { return r.base + int64(r.chunkEnd) }
 
+// fail builds a positional error. It is kept out of line so that the many error
+// paths of Next stay small.
+//
+//go:noinline
 func (r *Reader) fail(track, off int, err error) error {
 	return &ParseError{File: r.name, Track: track, Offset: r.base + int64(off), Err: err}
 }
@@ -229,14 +233,21 @@ func (r *Reader) readHeader() error {
 }
 
 // NextTrack advances to the next track chunk, skipping the rest of the current
-// track and any chunks of unknown type. It returns false after the last declared
+// track (unchecked, when Next has not returned false yet) and any chunks of
+// unknown type. It returns false after the last declared
 // track or on error (see Err).
 func (r *Reader) NextTrack() bool {
 	if r.err != nil || r.doneAll {
 		return false
 	}
 	if r.inTrack {
-		r.finishTrack()
+		if !r.eot && r.pos < r.chunkEnd {
+			// the caller skips the rest of the track: no end-of-track checks
+			r.inTrack = false
+			r.pos = r.chunkEnd
+		} else {
+			r.finishTrack()
+		}
 		if r.err != nil {
 			return false
 		}
@@ -298,6 +309,8 @@ func (r *Reader) finishTrack() {
 }
 
 // stop records err and makes Next and NextTrack return false from now on.
+//
+//go:noinline
 func (r *Reader) stop(err error) bool {
 	r.err = err
 	r.end = 0

@@ -115,3 +115,33 @@ func TestReaderStopsAfterError(t *testing.T) {
 		t.Errorf("reader went on after %v", r.Err())
 	}
 }
+
+// TestReaderSkipTrack checks that a track left half read is skipped without the
+// end-of-track checks (its SysEx may be ended later in the part not read).
+func TestReaderSkipTrack(t *testing.T) {
+	data := smf(1, 96, cat([]byte{0x00, 0xF0, 0x01, 0x43, 0x00, 0xF7, 0x01, 0xF7}, eot), cat([]byte{0x00, 0x90, 60, 100}, eot))
+	r, err := NewReader("a.mid", data, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []int64
+	for r.NextTrack() {
+		if r.Track() == 0 {
+			r.Next() // the open SysEx only
+			continue
+		}
+		for r.Next() {
+			got = append(got, r.Event().Offset)
+		}
+	}
+	if err := r.Err(); err != nil {
+		t.Fatal(err)
+	}
+	// track 1's chunk starts at 14+8+12 = 34; its body at 42; events at 43 and 47
+	if want := []int64{43, 47}; !reflect.DeepEqual(got, want) {
+		t.Errorf("track 1 event offsets %v, want %v", got, want)
+	}
+	if r.MissingEOT != 0 {
+		t.Errorf("MissingEOT %d for a skipped track", r.MissingEOT)
+	}
+}
