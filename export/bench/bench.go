@@ -1,0 +1,450 @@
+package bench
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"runtime"
+	"slices"
+	"strings"
+	"sync/atomic"
+	"syscall"
+	"time"
+
+	"gitlab.com/gomidi/midi/v2/smf"
+	"golang.org/x/sync/errgroup"
+
+	"github.com/relshard/relshard/export"
+	"github.com/relshard/relshard/ingest"
+	"github.com/relshard/relshard/relpos"
+	"github.com/relshard/relshard/sampledata"
+	"github.com/relshard/relshard/tokenize"
+)
+
+// Config says what to measure.
+type Config struct {
+	// Corpus is a folder of MIDI files to measure on; empty means a corpus generated
+	// with sampledata (Files files, Seed) in a temporary folder.
+	Corpus string
+	Files  int
+	Seed   uint64
+	// Workers is the worker count of the floors and the full export; 0 means all cores.
+	Workers int
+	// MemSmall and MemLarge are the file counts of the two peak-memory exports.
+	MemSmall, MemLarge int
+	// Exe is the relshard binary run as a child process for the peak-memory exports
+	// (peak resident memory is only measurable per process); empty skips them.
+	Exe string
+	// TempDir holds the generated corpora and exports; empty means os.TempDir.
+	TempDir string
+	// Smoke runs everything on a small corpus and enforces no target.
+	Smoke bool
+}
+
+// DefaultConfig is the full suite: 10,000 generated files, memory at 2,000 vs 20,000.
+func DefaultConfig() Config {
+	return Config{Files: 10_000, Seed: 1, MemSmall: 2_000, MemLarge: 20_000}
+}
+
+// SmokeConfig is the suite on a small corpus, targets not enforced.
+func SmokeConfig() Config {
+	return Config{Files: 200, Seed: 1, MemSmall: 100, MemLarge: 400, Smoke: true}
+}
+
+// Measure is one line of the report.
+type Measure struct {
+	Name   string  `json:"name"`
+	Value  float64 `json:"value"`
+	Unit   string  `json:"unit"`
+	Detail string  `json:"detail,omitempty"`
+	Target string  `json:"target,omitempty"` // e.g. "≤ 0.5"; empty for figures kept for the record
+	Status string  `json:"status,omitempty"` // PASS, FAIL, or "not enforced" in smoke runs
+}
+
+// Report is the outcome of Run.
+type Report struct {
+	Corpus   string    `json:"corpus"`
+	Files    int       `json:"files"`
+	Bytes    int64     `json:"bytes"`
+	Workers  int       `json:"workers"`
+	Measures []Measure `json:"measures"`
+}
+
+// Failed reports whether an enforced target failed.
+func (r *Report) Failed() bool {
+	return slices.ContainsFunc(r.Measures, func(m Measure) bool { return m.Status == "FAIL" })
+}
+
+// Run measures the suite. progress, when set, is told what is being measured.
+func Run(ctx context.Context, cfg Config, progress func(string)) (*Report, error) {
+	if progress == nil {
+		progress = func(string) {}
+	}
+	workers := cfg.Workers
+	if workers <= 0 {
+		workers = runtime.NumCPU()
+	}
+	tmp, err := os.MkdirTemp(cfg.TempDir, "relshard-bench-")
+	if err != nil {
+		return nil, fmt.Errorf("bench: %w", err)
+	}
+	defer os.RemoveAll(tmp)
+
+	corpus := cfg.Corpus
+	if corpus == "" {
+		corpus = filepath.Join(tmp, "corpus")
+		progress(fmt.Sprintf("generating %d sample files", cfg.Files))
+		if _, err := sampledata.WriteDir(ctx, corpus, sampledata.Config{Files: cfg.Files, Seed: cfg.Seed}, false); err != nil {
+			return nil, fmt.Errorf("bench: %w", err)
+		}
+	}
+	paths, size, err := midiFiles(corpus)
+	if err != nil {
+		return nil, err
+	}
+	if len(paths) == 0 {
+		return nil, fmt.Errorf("bench: no MIDI files under %s", corpus)
+	}
+	rep := &Report{Corpus: corpus, Files: len(paths), Bytes: size, Workers: workers}
+	add := func(m Measure) { rep.Measures = append(rep.Measures, m) }
+	judge := func(ok bool) string {
+		if cfg.Smoke {
+			return "not enforced"
+		}
+		if ok {
+			return "PASS"
+		}
+		return "FAIL"
+	}
+	sources := []ingest.Source{{Path: corpus, Dataset: filepath.Base(corpus)}}
+
+	// a. Floors, then the stages on the same files with the same workers. Each is run
+	// once after a warm-up read that puts the files in the page cache.
+	progress("reading the bytes")
+	if _, err := readAll(ctx, paths, workers, nil); err != nil {
+		return nil, err
+	}
+	read, err := timed(func() error { _, err := readAll(ctx, paths, workers, nil); return err })
+	if err != nil {
+		return nil, err
+	}
+	progress("parsing with gomidi smf.ReadFrom")
+	var events atomic.Int64
+	gomidi, err := timed(func() error {
+		_, err := readAll(ctx, paths, workers, func(data []byte) {
+			events.Add(int64(gomidiEvents(data)))
+		})
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
+	progress("ingest (parse, note pairing, hashing, duplicates)")
+	var notes int64
+	opts := ingest.DefaultOptions()
+	opts.Workers = workers
+	ingestT, err := timed(func() error {
+		return ingest.Scan(ctx, sources, opts, func(r *ingest.Result) error {
+			notes += int64(r.Record.Notes)
+			return nil
+		})
+	})
+	if err != nil {
+		return nil, err
+	}
+	progress("full export")
+	exportT, man, err := exportOnce(ctx, sources, filepath.Join(tmp, "export-w"), workers)
+	if err != nil {
+		return nil, err
+	}
+	add(Measure{Name: "read bytes", Value: read.Seconds(), Unit: "s", Detail: fmt.Sprintf("%d files, %.1f MB", len(paths), float64(size)/1e6)})
+	add(Measure{Name: "gomidi smf.ReadFrom", Value: gomidi.Seconds(), Unit: "s", Detail: fmt.Sprintf("%d events", events.Load())})
+	add(Measure{Name: "ingest stage", Value: ingestT.Seconds(), Unit: "s"})
+	add(Measure{Name: "full export", Value: exportT.Seconds(), Unit: "s", Detail: fmt.Sprintf("%d windows, %d tokens", man.Totals.Windows, man.Totals.Tokens)})
+	r := ratio(exportT, gomidi)
+	add(Measure{Name: "full export ÷ gomidi parse", Value: r, Unit: "×", Target: "≤ 0.5", Status: judge(r <= 0.5)})
+	r = ratio(ingestT, read)
+	add(Measure{Name: "ingest ÷ read bytes", Value: r, Unit: "×", Target: "≤ 3", Status: judge(r <= 3)})
+
+	// b. Exact coverage counting against the naive pair loop.
+	progress("coverage counting, fast vs naive")
+	fast, naive, same, err := countingRatio(ctx, sources, workers)
+	if err != nil {
+		return nil, err
+	}
+	r = ratio(naive, fast)
+	st := judge(r >= 20 && same)
+	detail := "identical counts"
+	if !same {
+		detail, st = "COUNTS DIFFER", "FAIL"
+	}
+	add(Measure{Name: "naive ÷ fast counting (L=2048, 64 buckets)", Value: r, Unit: "×", Detail: detail, Target: "≥ 20", Status: st})
+
+	// c. Peak resident memory of export, small vs large corpus, as child processes.
+	if cfg.Exe != "" {
+		progress(fmt.Sprintf("peak memory: export of %d vs %d files", cfg.MemSmall, cfg.MemLarge))
+		small, large, err := memoryRatio(ctx, cfg, tmp)
+		if err != nil {
+			return nil, err
+		}
+		r = float64(large) / float64(small)
+		add(Measure{Name: fmt.Sprintf("peak RSS, %d files", cfg.MemSmall), Value: float64(small) / (1 << 20), Unit: "MiB"})
+		add(Measure{Name: fmt.Sprintf("peak RSS, %d files", cfg.MemLarge), Value: float64(large) / (1 << 20), Unit: "MiB", Target: "< 512", Status: judge(large < 512<<20)})
+		add(Measure{Name: "peak RSS large ÷ small", Value: r, Unit: "×", Target: "≤ 1.25", Status: judge(r <= 1.25)})
+	}
+
+	// d. Workers 2 vs 1.
+	progress("export with --workers 1 and 2")
+	one, _, err := exportOnce(ctx, sources, filepath.Join(tmp, "export-1"), 1)
+	if err != nil {
+		return nil, err
+	}
+	two, _, err := exportOnce(ctx, sources, filepath.Join(tmp, "export-2"), 2)
+	if err != nil {
+		return nil, err
+	}
+	r = ratio(one, two)
+	add(Measure{Name: "export speed-up, 2 workers ÷ 1", Value: r, Unit: "×", Detail: fmt.Sprintf("%d cores", runtime.NumCPU()), Target: "≥ 1.7", Status: judge(r >= 1.7)})
+
+	// e. Throughput of the full export, for the record.
+	s := exportT.Seconds()
+	add(Measure{Name: "throughput: files", Value: float64(len(paths)) / s, Unit: "files/s"})
+	add(Measure{Name: "throughput: notes", Value: float64(notes) / s, Unit: "notes/s"})
+	add(Measure{Name: "throughput: tokens", Value: float64(man.Totals.Tokens) / s, Unit: "tokens/s"})
+	add(Measure{Name: "throughput: input", Value: float64(size) / 1e6 / s, Unit: "MB/s"})
+	return rep, nil
+}
+
+// gomidiEvents parses data with gomidi and counts its events. gomidi v2.3.23 panics
+// on some valid files (SMPTE division: a failed type assertion while it computes
+// absolute times), so the baseline recovers and counts such a file as zero events.
+func gomidiEvents(data []byte) (n int) {
+	defer func() {
+		if recover() != nil {
+			n = 0
+		}
+	}()
+	s, err := smf.ReadFrom(bytes.NewReader(data))
+	if err != nil {
+		return 0
+	}
+	for _, tr := range s.Tracks {
+		n += len(tr)
+	}
+	return n
+}
+
+func ratio(a, b time.Duration) float64 {
+	if b <= 0 {
+		return 0
+	}
+	return a.Seconds() / b.Seconds()
+}
+
+func timed(f func() error) (time.Duration, error) {
+	start := time.Now()
+	err := f()
+	return time.Since(start), err
+}
+
+// midiFiles lists the MIDI files under dir in sorted order, with their total size.
+func midiFiles(dir string) ([]string, int64, error) {
+	var paths []string
+	var size int64
+	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		switch strings.ToLower(filepath.Ext(p)) {
+		case ".mid", ".midi", ".smf", ".rmi":
+		default:
+			return nil
+		}
+		if !d.Type().IsRegular() {
+			return nil
+		}
+		info, err := d.Info()
+		if err != nil {
+			return err
+		}
+		size += info.Size()
+		paths = append(paths, p)
+		return nil
+	})
+	if err != nil {
+		return nil, 0, fmt.Errorf("bench: list %s: %w", dir, err)
+	}
+	slices.Sort(paths)
+	return paths, size, nil
+}
+
+// readAll reads every file with a pool of workers and hands each file's bytes to f.
+func readAll(ctx context.Context, paths []string, workers int, f func([]byte)) (int64, error) {
+	var next, total atomic.Int64
+	g, ctx := errgroup.WithContext(ctx)
+	for range workers {
+		g.Go(func() error {
+			for {
+				i := int(next.Add(1) - 1)
+				if i >= len(paths) {
+					return nil
+				}
+				if err := ctx.Err(); err != nil {
+					return err
+				}
+				data, err := os.ReadFile(paths[i])
+				if err != nil {
+					return fmt.Errorf("bench: %w", err)
+				}
+				total.Add(int64(len(data)))
+				if f != nil {
+					f(data)
+				}
+			}
+		})
+	}
+	err := g.Wait()
+	return total.Load(), err
+}
+
+func exportOnce(ctx context.Context, sources []ingest.Source, out string, workers int) (time.Duration, *export.Manifest, error) {
+	var man *export.Manifest
+	d, err := timed(func() error {
+		var err error
+		man, err = export.Run(ctx, sources, export.DefaultConfig(), export.Options{Out: out, Workers: workers, ToolVersion: "bench"})
+		return err
+	})
+	if err != nil {
+		return 0, nil, fmt.Errorf("bench: export: %w", err)
+	}
+	return d, man, nil
+}
+
+// countingRatio times the exact counter and the naive pair loop on the same
+// 2,048-token window (the first full window of the corpus in the default
+// performance encoding), with 64 linear buckets per offset kind.
+func countingRatio(ctx context.Context, sources []ingest.Source, workers int) (fast, naive time.Duration, same bool, err error) {
+	enc, err := tokenize.NewEncoder(tokenize.DefaultConfig())
+	if err != nil {
+		return 0, 0, false, err
+	}
+	const L = 2048
+	var win []tokenize.Token
+	errFound := errors.New("found")
+	opts := ingest.DefaultOptions()
+	opts.Workers = workers
+	err = ingest.Scan(ctx, sources, opts, func(r *ingest.Result) error {
+		for i := range r.Pieces {
+			err := enc.Windows(&r.Pieces[i], func(w tokenize.Window) error {
+				if len(w.Tokens) == L {
+					win = slices.Clone(w.Tokens)
+					return errFound
+				}
+				return nil
+			})
+			if err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil && !errors.Is(err, errFound) {
+		return 0, 0, false, err
+	}
+	if win == nil {
+		return 0, 0, false, fmt.Errorf("bench: no piece long enough for a %d-token window", L)
+	}
+	cfg, err := Buckets64()
+	if err != nil {
+		return 0, 0, false, err
+	}
+	c, err := relpos.NewCounter(cfg)
+	if err != nil {
+		return 0, 0, false, err
+	}
+	const reps = 5
+	var got relpos.Counts
+	fast, err = timed(func() error {
+		for range reps {
+			t := c.NewTally()
+			if err := c.Count(t, win); err != nil {
+				return err
+			}
+			got = c.Counts(t)
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, 0, false, err
+	}
+	var want relpos.Counts
+	naive, err = timed(func() error {
+		for range reps {
+			var err error
+			if want, err = c.CountNaive(win); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, 0, false, err
+	}
+	return fast, naive, fmt.Sprint(got) == fmt.Sprint(want), nil
+}
+
+// memoryRatio exports the first MemSmall and the first MemLarge files of one
+// generated corpus in child processes and returns their peak resident memory.
+func memoryRatio(ctx context.Context, cfg Config, tmp string) (small, large int64, err error) {
+	dir := filepath.Join(tmp, "mem-corpus")
+	if _, err := sampledata.WriteDir(ctx, dir, sampledata.Config{Files: cfg.MemLarge, Seed: cfg.Seed + 1}, false); err != nil {
+		return 0, 0, fmt.Errorf("bench: %w", err)
+	}
+	paths, _, err := midiFiles(dir)
+	if err != nil {
+		return 0, 0, err
+	}
+	run := func(n int) (int64, error) {
+		list := filepath.Join(tmp, fmt.Sprintf("mem-%d.txt", n))
+		k := min(n, len(paths))
+		if err := os.WriteFile(list, []byte(strings.Join(paths[:k], "\n")+"\n"), 0o644); err != nil {
+			return 0, fmt.Errorf("bench: %w", err)
+		}
+		out := filepath.Join(tmp, fmt.Sprintf("mem-out-%d", n))
+		cmd := exec.CommandContext(ctx, cfg.Exe, "export", list, "--out", out)
+		var stderr bytes.Buffer
+		cmd.Stderr = &stderr
+		if err := cmd.Run(); err != nil {
+			return 0, fmt.Errorf("bench: export of %d files: %w: %s", n, err, strings.TrimSpace(stderr.String()))
+		}
+		ru, ok := cmd.ProcessState.SysUsage().(*syscall.Rusage)
+		if !ok {
+			return 0, errors.New("bench: peak memory not measurable on this system")
+		}
+		return ru.Maxrss * 1024, nil // Linux reports kilobytes
+	}
+	if small, err = run(cfg.MemSmall); err != nil {
+		return 0, 0, err
+	}
+	if large, err = run(cfg.MemLarge); err != nil {
+		return 0, 0, err
+	}
+	return small, large, nil
+}
+
+// Buckets64 is the bucket config of the counting measure: 64 log buckets for token
+// distance (up to 2048) and for time (up to 30 s), 65 linear buckets for pitch
+// (clip 32), the instrument breakdown on.
+func Buckets64() (relpos.Config, error) {
+	cfg := relpos.DefaultConfig()
+	clip := 32
+	cfg.Distance = []relpos.SchemeSpec{{Scheme: relpos.TypeLog, Buckets: 64, Max: 2048}}
+	cfg.Time = []relpos.SchemeSpec{{Scheme: relpos.TypeLog, Buckets: 64, Max: 30000}}
+	cfg.Pitch = []relpos.SchemeSpec{{Scheme: relpos.TypeLinear, Width: 1, Clip: &clip}}
+	return cfg, cfg.Validate()
+}
