@@ -26,8 +26,8 @@ type Fidelity struct {
 	// onset and release within shift_ms/2 and velocity in its bin; grid, onset and
 	// duration exact and velocity in its bin.
 	WithinBound int `json:"within_bound"`
-	// OnGrid counts (grid encoding) piece notes whose onset and end fall on the grid
-	// and whose length is 1..max_duration_steps steps; OnGridExact those of them
+	// OnGrid counts (grid encoding) the encoded piece notes whose onset and end fall
+	// on the grid and whose length is 1..max_duration_steps steps; OnGridExact those of them
 	// recovered with onset, duration and key exact, which the encoding guarantees.
 	OnGrid       int           `json:"on_grid,omitempty"`
 	OnGridExact  int           `json:"on_grid_exact,omitempty"`
@@ -99,7 +99,7 @@ func (e *Encoder) Fidelity(p *ingest.Piece) (Fidelity, error) {
 			// Common resolution: ticks × grid steps per quarter, so a step is tpq units.
 			fn.onQ, fn.offQ = n.StartTick*gpq, n.EndTick*gpq
 			steps := (fn.offQ - fn.onQ) / tpq
-			fn.onGrid = metricGrid && fn.onQ%tpq == 0 && fn.offQ%tpq == 0 && steps >= 1 && steps <= int64(e.cfg.MaxDurationSteps)
+			fn.onGrid = metricGrid && !(n.Drum && e.cfg.Drums == DrumsDrop) && fn.onQ%tpq == 0 && fn.offQ%tpq == 0 && steps >= 1 && steps <= int64(e.cfg.MaxDurationSteps)
 			if fn.onGrid {
 				f.OnGrid++
 			}
