@@ -76,7 +76,7 @@ func specFormat0() []byte {
 // specFormat1 is the same example in the format-1 rendition of SMF 1.0 (Appendix 1.1):
 // a tempo track and one track per channel, notes ended by note-on with velocity 0.
 func specFormat1() []byte {
-	return smf(1, 0x60,
+	b := smf(1, 0x60,
 		[]byte{ // 00 00 00 14
 			0x00, 0xFF, 0x58, 0x04, 0x04, 0x02, 0x18, 0x08,
 			0x00, 0xFF, 0x51, 0x03, 0x07, 0xA1, 0x20,
@@ -103,6 +103,15 @@ func specFormat1() []byte {
 			0x00, 0xFF, 0x2F, 0x00,
 		},
 	)
+	// the track lengths SMF 1.0 gives for this rendition
+	off := 14
+	for _, n := range []int{0x14, 0x10, 0x0F, 0x15} {
+		if got := int(b[off+4])<<24 | int(b[off+5])<<16 | int(b[off+6])<<8 | int(b[off+7]); got != n {
+			panic("spec format-1 example has a track of the wrong length")
+		}
+		off += 8 + n
+	}
+	return b
 }
 
 func TestSpecExample(t *testing.T) {
@@ -210,7 +219,7 @@ func TestSMPTE(t *testing.T) {
 		{"25 fps x 40", 0xE728, 1000, 1.0, 25},
 		{"24 fps x 4", 0xE804, 96, 1.0, 24},
 		{"30 fps x 80", 0xE250, 2400, 1.0, 30},
-		// 29.97 fps (30000/1001, SMPTE 12M): 30 frames of 10 ticks last 1.001 s.
+		// 29.97 fps (30000/1001 per SMPTE 12M, from memory): 30 frames of 10 ticks last 1.001 s.
 		{"29.97 fps x 10", 0xE30A, 300, 1.001, 30000.0 / 1001},
 	}
 	for _, c := range cases {
@@ -331,7 +340,8 @@ func TestParseErrorMessage(t *testing.T) {
 }
 
 // riff wraps an SMF in a RIFF RMID container (Microsoft Multimedia Programming
-// Interface and Data Specifications 1.0): "RIFF" size "RMID" "data" size SMF.
+// Interface and Data Specifications 1.0, from memory): "RIFF" size "RMID" "data"
+// size SMF, sizes little-endian, chunks padded to even length.
 func riff(s []byte) []byte {
 	le := func(n int) []byte { return []byte{byte(n), byte(n >> 8), byte(n >> 16), byte(n >> 24)} }
 	pad := []byte{}
@@ -421,6 +431,7 @@ func TestPairing(t *testing.T) {
 			[]Note{n(0, 30, 60, 90, 0, 0)}, Warnings{}},
 		{"pedal off: no extension", cat(cc(0, 0, 64, 127), on(0, 0, 60, 90), off(10, 0, 60), cc(20, 0, 64, 0)), false,
 			[]Note{n(0, 10, 60, 90, 0, 0)}, Warnings{}},
+		// MIDI 1.0 controller 64 (damper pedal): 0-63 off, 64-127 on (from memory)
 		{"pedal value 63 is up", cat(cc(0, 0, 64, 63), on(0, 0, 60, 90), off(10, 0, 60), cc(20, 0, 64, 0)), true,
 			[]Note{n(0, 10, 60, 90, 0, 0)}, Warnings{}},
 		{"re-striking a held key ends it", cat(cc(0, 0, 64, 100), on(0, 0, 60, 90), off(10, 0, 60), on(5, 0, 60, 70), off(5, 0, 60), cc(5, 0, 64, 0)), true,
