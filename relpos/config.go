@@ -165,7 +165,7 @@ func (c Config) Validate() error {
 			return fmt.Errorf("relpos config: %s: %d schemes, at most %d", k, len(specs), maxSchemesPerKind)
 		}
 		for i, s := range specs {
-			if _, err := s.Build(c.Pairs); err != nil {
+			if _, err := s.Build(direction(k, c.Pairs)); err != nil {
 				return fmt.Errorf("relpos config: %s[%d] %s: %w", k, i, s, err)
 			}
 		}
@@ -202,7 +202,7 @@ func (c Config) Tables() ([]Table, error) {
 	var out []Table
 	for _, k := range Kinds {
 		for _, spec := range c.Specs(k) {
-			s, err := spec.Build(c.Pairs)
+			s, err := spec.Build(direction(k, c.Pairs))
 			if err != nil {
 				return nil, err // unreachable after Validate
 			}
@@ -215,3 +215,13 @@ func (c Config) Tables() ([]Table, error) {
 }
 
 var errNoSchemes = errors.New("relpos: no schemes")
+
+// direction is the default direction of a log scheme of kind k: the pairs mode for
+// token distance and time (causal pairs have offsets ≤ 0), and bidirectional for
+// pitch, whose offsets take both signs in either mode.
+func direction(k Kind, pairs Mode) Mode {
+	if k == Pitch {
+		return Bidirectional
+	}
+	return pairs
+}

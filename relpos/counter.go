@@ -79,7 +79,7 @@ func NewCounter(cfg Config) (*Counter, error) {
 	c := &Counter{cfg: cfg, mags: quantileMags()}
 	for _, k := range Kinds {
 		for _, spec := range cfg.Specs(k) {
-			s, err := spec.Build(cfg.Pairs)
+			s, err := spec.Build(direction(k, cfg.Pairs))
 			if err != nil {
 				return nil, err
 			}

@@ -123,8 +123,9 @@ func (s SchemeSpec) String() string {
 	return s.Scheme + ":" + strings.Join(parts, ",")
 }
 
-// Build returns the scheme; a log scheme without a direction takes pairs.
-func (s SchemeSpec) Build(pairs Mode) (*Scheme, error) {
+// Build returns the scheme; a log scheme without a direction takes dir (a Config
+// gives the pairs mode for distance and time, bidirectional for pitch).
+func (s SchemeSpec) Build(dir Mode) (*Scheme, error) {
 	switch s.Scheme {
 	case TypeLinear:
 		if s.Clip == nil {
@@ -138,7 +139,7 @@ func (s SchemeSpec) Build(pairs Mode) (*Scheme, error) {
 	case TypeLog:
 		d := s.Direction
 		if d == "" {
-			d = pairs
+			d = dir
 		}
 		return Log(s.Buckets, s.Max, s.Exact, d)
 	case TypeEdges:

@@ -26,19 +26,28 @@ type relposFlags struct {
 
 const schemeFlagHelp = "a bucket scheme (repeatable): linear:width=W,clip=K | log:buckets=N,max=M[,exact=E][,direction=D] | edges:E0,E1,..."
 
-func (f *relposFlags) AddFlags(fs *pflag.FlagSet, report bool) {
+// AddFlags registers --pairs, the scheme flags, and the report flags when report is set.
+func (f *relposFlags) AddFlags(fs *pflag.FlagSet, report bool) { f.addFlags(fs, true, report) }
+
+// addFlags registers --pairs, the scheme flags when schemes is set, and the report
+// flags when report is set (the sampling flags always with the report flags).
+func (f *relposFlags) addFlags(fs *pflag.FlagSet, schemes, report bool) {
 	f.report = report
 	fs.StringVar(&f.pairs, "pairs", string(relpos.Causal), "pairs attention sees: causal (keys j ≤ i) or bidirectional")
-	fs.StringArrayVar(&f.distance, "distance", nil, "token distance: "+schemeFlagHelp)
-	fs.StringArrayVar(&f.time, "time", nil, "time offset: "+schemeFlagHelp)
-	fs.StringArrayVar(&f.pit, "pitch", nil, "pitch offset: "+schemeFlagHelp)
+	if schemes {
+		fs.StringArrayVar(&f.distance, "distance", nil, "token distance: "+schemeFlagHelp)
+		fs.StringArrayVar(&f.time, "time", nil, "time offset: "+schemeFlagHelp)
+		fs.StringArrayVar(&f.pit, "pitch", nil, "pitch offset: "+schemeFlagHelp)
+	}
 	if !report {
 		return
 	}
-	fs.BoolVar(&f.instruments, "instruments", true, "break down into drum pairs and pitched-instrument pairs")
-	fs.BoolVar(&f.joint, "joint", false, "add the time × pitch table of the first time and pitch schemes (walks every pitched pair)")
-	fs.Float64SliceVar(&f.targets, "targets", []float64{0.95, 0.99}, "coverage targets of the clip recommendations")
-	fs.IntVar(&f.budget, "budget", 0, "embedding rows: list the (width, clip) pairs that fit")
+	if schemes {
+		fs.BoolVar(&f.instruments, "instruments", true, "break down into drum pairs and pitched-instrument pairs")
+		fs.BoolVar(&f.joint, "joint", false, "add the time × pitch table of the first time and pitch schemes (walks every pitched pair)")
+		fs.Float64SliceVar(&f.targets, "targets", []float64{0.95, 0.99}, "coverage targets of the clip recommendations")
+		fs.IntVar(&f.budget, "budget", 0, "embedding rows: list the (width, clip) pairs that fit")
+	}
 	fs.Float64Var(&f.sample, "sample", 0, "count this share of the pairs, at random, with confidence intervals (0 = all, exact)")
 	fs.Uint64Var(&f.seed, "seed", 0, "seed of the sampling")
 	fs.Float64Var(&f.confidence, "confidence", 0.95, "confidence level of the sampling intervals")
@@ -177,7 +186,7 @@ Schemes:
   linear:width=W,clip=K      bucket = clip(trunc(Δ/W), −K, K) + K, 2K+1 buckets (Shaw et al. 2018)
   log:buckets=N,max=M        exact then log-spaced buckets, saturating at |Δ| ≥ M (Raffel et al. 2020);
                              exact=E sets the exact magnitudes (default N/4 bidirectional, N/2 causal),
-                             direction=causal|bidirectional (default: --pairs)
+                             direction=causal|bidirectional (default: --pairs; pitch: bidirectional)
   edges:E0,E1,...,Em         bucket b covers [E_b, E_b+1); beyond saturates into the end buckets
 
 Example: relshard buckets --pairs bidirectional --distance log:buckets=32,max=128
