@@ -139,7 +139,7 @@ func TestDecodeInputs(t *testing.T) {
 	}
 	bad := []struct {
 		name, json, args, want string
-		code                       int
+		code                   int
 	}{
 		{"unknown id", "[1, 9999]", "", "token 1 (?9999): id outside the vocabulary", exitFailed},
 		{"label mismatch", `[{"id": 63, "label": "on.61"}]`, "", `id 63 is "on.60"`, exitFailed},
