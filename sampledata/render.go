@@ -58,9 +58,19 @@ type event struct {
 // trackBuilder collects one track's events with their bytes in one arena. Builders
 // are pooled: a render takes them, and gives them back once the bytes are written.
 type trackBuilder struct {
-	evs   []event
-	arena []byte
-	tr    smf.Track
+	evs    []event
+	arena  []byte
+	tr     smf.Track
+	keys   []uint64 // sort scratch
+	sorted []event  // sort scratch
+}
+
+func maxTick(evs []event) int64 {
+	var m int64
+	for _, e := range evs {
+		m = max(m, e.tick)
+	}
+	return m
 }
 
 var builderPool = sync.Pool{New: func() any { return new(trackBuilder) }}
@@ -103,15 +113,31 @@ func (tb *trackBuilder) meta(tick int64, typ byte, data []byte) {
 
 // track sorts the events and returns them as a closed gomidi track ending at end.
 func (tb *trackBuilder) track(end int64) smf.Track {
-	slices.SortFunc(tb.evs, func(a, b event) int {
-		if c := cmpInt(a.tick, b.tick); c != 0 {
-			return c
+	// Sort by (tick, prio, insertion order) as one packed key when it fits: a plain
+	// integer sort is several times faster than a comparison function.
+	if len(tb.evs) < 1<<20 && maxTick(tb.evs) < 1<<38 {
+		keys := slices.Grow(tb.keys[:0], len(tb.evs))
+		for i, e := range tb.evs {
+			keys = append(keys, uint64(e.tick)<<23|uint64(e.prio)<<20|uint64(i))
 		}
-		if a.prio != b.prio {
-			return int(a.prio) - int(b.prio)
+		slices.Sort(keys)
+		sorted := slices.Grow(tb.sorted[:0], len(tb.evs))
+		for _, k := range keys {
+			sorted = append(sorted, tb.evs[k&(1<<20-1)])
 		}
-		return int(a.seq - b.seq)
-	})
+		tb.keys, tb.sorted = keys, tb.evs
+		tb.evs = sorted
+	} else {
+		slices.SortFunc(tb.evs, func(a, b event) int {
+			if c := cmpInt(a.tick, b.tick); c != 0 {
+				return c
+			}
+			if a.prio != b.prio {
+				return int(a.prio) - int(b.prio)
+			}
+			return int(a.seq - b.seq)
+		})
+	}
 	tr := slices.Grow(tb.tr[:0], len(tb.evs)+1)
 	var last int64
 	for _, e := range tb.evs {
