@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"slices"
+	"strconv"
 	"strings"
 	"sync"
 
@@ -331,7 +332,7 @@ func composeSlot(seed uint64, i int) (*piece, string, string) {
 				shift = 1
 			}
 			sc.transpose(shift)
-			if sc.title != "" && base.kind != KindEnsemble && base.kind != KindSwing && base.kind != KindOddMeter && base.kind != KindLeadSheet {
+			if base.kind == KindPerformance { // its title names the key
 				sc.title = base.title + " in " + sc.key.name()
 			}
 			name += "-alt-key"
@@ -342,7 +343,7 @@ func composeSlot(seed uint64, i int) (*piece, string, string) {
 			}
 			base.lay.offVel0 = r.chance(40)
 			base.lay.noRunning = r.chance(15)
-			name += "-" + itoa(int(base.lay.ppq)) + "ppq"
+			name += "-" + strconv.Itoa(int(base.lay.ppq)) + "ppq"
 		}
 		return base, s.kind, datasetOf[base.kind] + "/" + fileStem(i, name) + ".mid"
 	}

@@ -58,6 +58,8 @@
 // resaved duplicate and an odd-meter piece that changes meter, so even a small
 // corpus has a format-0, a format-2 and an SMPTE file.
 //
-// Generation is fast enough for scale tests: about 0.5 ms per file on one core
-// (see BenchmarkGenerate).
+// Generation is fast enough for scale tests: composing and encoding cost about
+// 0.8 ms of CPU per file (10,000 files took 8.3 s of CPU with two workers), so
+// 10,000 files, written to disk, take well under a minute on two cores (see
+// BenchmarkGenerate).
 package sampledata

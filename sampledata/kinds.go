@@ -1,6 +1,9 @@
 package sampledata
 
-import "slices"
+import (
+	"slices"
+	"strconv"
+)
 
 // Kinds of file in a generated corpus. A file's Kind says which composer made it;
 // near-duplicates carry KindTransposed or KindResaved and directly follow the file
@@ -550,26 +553,7 @@ func composePatternBank(r *rng) []*score {
 
 func twoDigits(n int) string { return string([]byte{byte('0' + n/10%10), byte('0' + n%10)}) }
 
-func meterName(num, den int) string { return itoa(num) + "/" + itoa(den) }
-
-func itoa(n int) string {
-	if n == 0 {
-		return "0"
-	}
-	var b []byte
-	neg := n < 0
-	if neg {
-		n = -n
-	}
-	for n > 0 {
-		b = append([]byte{byte('0' + n%10)}, b...)
-		n /= 10
-	}
-	if neg {
-		b = append([]byte{'-'}, b...)
-	}
-	return string(b)
-}
+func meterName(num, den int) string { return strconv.Itoa(num) + "/" + strconv.Itoa(den) }
 
 // transpose shifts every pitched note by semitones and moves the key with it.
 func (s *score) transpose(semitones int) {

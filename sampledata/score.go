@@ -359,7 +359,10 @@ func degreeOf(k key, base, p int) int {
 }
 
 // barAt returns the bar sounding at tick t (bars sorted by start).
-func barAt(bars []bar, t int64) bar {
+func barAt(bars []bar, t int64) bar { return bars[barIndex(bars, t)] }
+
+// barIndex returns the index of the bar sounding at tick t.
+func barIndex(bars []bar, t int64) int {
 	i, _ := slices.BinarySearchFunc(bars, t, func(b bar, t int64) int {
 		switch {
 		case b.end() <= t:
@@ -369,10 +372,7 @@ func barAt(bars []bar, t int64) bar {
 		}
 		return 0
 	})
-	if i >= len(bars) {
-		i = len(bars) - 1
-	}
-	return bars[i]
+	return min(i, len(bars)-1)
 }
 
 // chordPitches voices a chord in close position from MIDI key lo upwards.
@@ -689,14 +689,8 @@ func swing(ns []note) {
 // downbeats are accented, and a little jitter keeps repeated notes apart.
 func dynamics(r *rng, ns []note, bars []bar, swell, accent, jitter int) {
 	for i := range ns {
-		b := barAt(bars, ns[i].start)
-		idx := 0
-		for j := range bars {
-			if bars[j].start == b.start {
-				idx = j
-				break
-			}
-		}
+		idx := barIndex(bars, ns[i].start)
+		b := bars[idx]
 		pos := idx % 4 // place in a four-bar group
 		arc := []int{0, 1, 2, 1}[pos] * swell / 2
 		v := int(ns[i].vel) + arc + r.between(-jitter, jitter)
