@@ -321,3 +321,25 @@ func TestScanCommandOpenMSX(t *testing.T) {
 		}
 	}
 }
+
+// TestScanCommandProgress: the progress bar goes to stderr only when it is a terminal,
+// and never changes stdout.
+func TestScanCommandProgress(t *testing.T) {
+	dir, _ := mixedCorpus(t)
+	var outs []string
+	for _, term := range []bool{false, true} {
+		var out, errb bytes.Buffer
+		code := run([]string{"scan", "--json", dir}, &streams{In: strings.NewReader(""), Out: &out, Err: &errb, ErrIsTerminal: term})
+		if code != exitSkipped {
+			t.Errorf("terminal %v: exit %d", term, code)
+		}
+		hasBar := strings.Contains(errb.String(), "scanning")
+		if hasBar != term {
+			t.Errorf("terminal %v: progress shown %v: %q", term, hasBar, errb.String())
+		}
+		outs = append(outs, out.String())
+	}
+	if outs[0] != outs[1] {
+		t.Errorf("stdout differs with a progress bar")
+	}
+}
