@@ -277,8 +277,8 @@ type emitter struct {
 }
 
 func (em *emitter) put(n *Note, r *rawNote) {
-	tm := em.tm
-	for em.seg+1 < len(tm.ticks) && tm.ticks[em.seg+1] <= r.StartTick {
+	segs := em.tm.segs
+	for em.seg+1 < len(segs) && segs[em.seg+1].tick <= r.StartTick {
 		em.seg++
 	}
 	for em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
@@ -287,13 +287,14 @@ func (em *emitter) put(n *Note, r *rawNote) {
 		em.pc++
 	}
 	e := em.seg
-	for e+1 < len(tm.ticks) && tm.ticks[e+1] <= r.EndTick {
+	for e+1 < len(segs) && segs[e+1].tick <= r.EndTick {
 		e++
 		if e-em.seg > 8 {
-			e = tm.segment(r.EndTick)
+			e = em.tm.segment(r.EndTick)
 			break
 		}
 	}
+	tm := em.tm
 	if r.EndTick == r.StartTick {
 		em.zero++
 	}

@@ -14,10 +14,18 @@ import (
 // tick the last one rules). For SMPTE division a tick is 1/(fps × ticks per frame)
 // seconds and tempo events do not change it (SMF 1.0).
 type TimeMap struct {
-	ticks []int64   // tick where each segment starts; ticks[0] == 0
-	secs  []float64 // seconds at ticks[i]
-	num   []float64 // seconds per tick within segment i is num[i]/den[i]: kept apart so
-	den   []float64 // that dt*num/den is one correctly rounded division
+	// Times are kept as numerators over one denominator (den: 10^6 × ticks per
+	// quarter, or frames per second × ticks per frame): exact integers in float64
+	// for any realistic piece, so each time is one correctly rounded division.
+	segs []tmSegment
+	den  float64
+}
+
+// tmSegment is a stretch of constant tempo.
+type tmSegment struct {
+	tick int64   // first tick of the segment; segs[0].tick == 0
+	acc  float64 // time at tick, times den
+	num  float64 // time per tick, times den (µs per quarter, or 1 / 1001 for SMPTE)
 }
 
 // TimeMap builds the tick/second map of the piece.
@@ -28,58 +36,52 @@ func (p *Piece) TimeMap() *TimeMap {
 }
 
 func (m *TimeMap) build(p *Piece) {
-	m.ticks, m.secs, m.num, m.den = m.ticks[:0], m.secs[:0], m.num[:0], m.den[:0]
+	m.segs = m.segs[:0]
 	if p.SMPTEFPS > 0 && p.TicksPerFrame > 0 {
-		num, den := 1.0, p.SMPTEFPS*float64(p.TicksPerFrame)
+		m.den = p.SMPTEFPS * float64(p.TicksPerFrame)
+		num := 1.0
 		if p.SMPTEFPS == smpteDropFPS {
-			num, den = 1001, 30000*float64(p.TicksPerFrame)
+			m.den, num = 30000*float64(p.TicksPerFrame), 1001
 		}
-		m.ticks = append(m.ticks, 0)
-		m.secs = append(m.secs, 0)
-		m.num = append(m.num, num)
-		m.den = append(m.den, den)
+		m.segs = append(m.segs, tmSegment{0, 0, num})
 		return
 	}
 	tpq := float64(p.TicksPerQuarter)
 	if tpq <= 0 {
 		tpq = 1
 	}
-	den := 1e6 * tpq
-	m.ticks = append(m.ticks, 0)
-	m.secs = append(m.secs, 0)
-	m.num = append(m.num, defaultUSPerQuarter)
-	m.den = append(m.den, den)
+	m.den = 1e6 * tpq
+	m.segs = append(m.segs, tmSegment{0, 0, defaultUSPerQuarter})
 	for _, t := range p.Tempos {
 		if t.USPerQuarter == 0 {
 			continue
 		}
-		last := len(m.ticks) - 1
-		if t.Tick <= m.ticks[last] {
-			m.num[last] = float64(t.USPerQuarter) // same tick (or out of order, which Parse never produces): the later one rules
+		last := &m.segs[len(m.segs)-1]
+		if t.Tick <= last.tick {
+			last.num = float64(t.USPerQuarter) // same tick (or out of order, which Parse never produces): the later one rules
 			continue
 		}
-		m.ticks = append(m.ticks, t.Tick)
-		m.secs = append(m.secs, m.at(last, t.Tick))
-		m.num = append(m.num, float64(t.USPerQuarter))
-		m.den = append(m.den, den)
+		acc := last.acc + float64(t.Tick-last.tick)*last.num
+		m.segs = append(m.segs, tmSegment{t.Tick, acc, float64(t.USPerQuarter)})
 	}
 }
 
 // at returns the seconds of tick within segment i.
 func (m *TimeMap) at(i int, tick int64) float64 {
-	return m.secs[i] + float64(tick-m.ticks[i])*m.num[i]/m.den[i]
+	s := &m.segs[i]
+	return (s.acc + float64(tick-s.tick)*s.num) / m.den
 }
 
 // segment returns the index of the segment holding tick.
 func (m *TimeMap) segment(tick int64) int {
-	if len(m.ticks) < 8 {
-		i := len(m.ticks) - 1
-		for i > 0 && m.ticks[i] > tick {
+	if len(m.segs) < 8 {
+		i := len(m.segs) - 1
+		for i > 0 && m.segs[i].tick > tick {
 			i--
 		}
 		return i
 	}
-	i := sort.Search(len(m.ticks), func(i int) bool { return m.ticks[i] > tick }) - 1
+	i := sort.Search(len(m.segs), func(i int) bool { return m.segs[i].tick > tick }) - 1
 	if i < 0 {
 		i = 0
 	}
@@ -97,11 +99,13 @@ func (m *TimeMap) Tick(seconds float64) int64 {
 	if !(seconds > 0) {
 		return 0
 	}
-	i := sort.Search(len(m.secs), func(i int) bool { return m.secs[i] > seconds }) - 1
+	target := seconds * m.den
+	i := sort.Search(len(m.segs), func(i int) bool { return m.segs[i].acc > target }) - 1
 	if i < 0 {
 		i = 0
 	}
-	t := float64(m.ticks[i]) + math.Round((seconds-m.secs[i])*m.den[i]/m.num[i])
+	s := &m.segs[i]
+	t := float64(s.tick) + math.Round((target-s.acc)/s.num)
 	if t > math.MaxInt64/2 {
 		return math.MaxInt64 / 2
 	}
@@ -112,10 +116,8 @@ func (m *TimeMap) Tick(seconds float64) int64 {
 // for many lookups build a TimeMap once.
 func (p *Piece) Seconds(tick int64) float64 {
 	var m TimeMap
-	var t [1]int64
-	var s [1]float64
-	var n, d [1]float64
-	m.ticks, m.secs, m.num, m.den = t[:0], s[:0], n[:0], d[:0]
+	var seg [4]tmSegment
+	m.segs = seg[:0]
 	m.build(p)
 	return m.Seconds(tick)
 }
