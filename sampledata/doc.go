@@ -51,6 +51,9 @@
 //     22 ms standard deviation per performance, bell-shaped, never beyond three
 //     deviations, with the melody a further 0–12 ms ahead;
 //   - at least 55% of successive melody intervals of 2 semitones or less;
+//   - at least 95% of pitched notes in the scale of the file's Key Signature (the
+//     raised seventh of harmonic minor counted in; the rest are chromatic
+//     approach notes of walking bass lines);
 //   - transposed near-duplicates 5.6% (3–9%), resaved ones 2.8% (1–5%);
 //   - all of 2/4, 3/4, 4/4, 5/4, 6/8, 7/8 and 12/8 present, and meter changes.
 //

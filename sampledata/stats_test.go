@@ -29,6 +29,25 @@ type fileStats struct {
 	melodySteps int // successive melody intervals of at most 2 semitones
 	melodyMoves int // successive melody intervals
 	programs    map[uint8]bool
+	pitched     int // non-drum note-ons
+	inKey       int // of which in the scale of the key signature in effect
+}
+
+// scaleOf returns the pitch classes of the key a Key Signature names (SMF 1.0: sf
+// sharps, or flats when negative, and mi 1 for minor): the major scale, or for minor
+// the natural minor scale plus the raised seventh of harmonic minor (common practice).
+func scaleOf(sf int8, minor bool) [12]bool {
+	tonic := (int(sf)*7%12 + 12) % 12 // each sharp a fifth up (common practice)
+	steps := []int{0, 2, 4, 5, 7, 9, 11}
+	if minor {
+		tonic = (tonic + 9) % 12 // the relative minor
+		steps = []int{0, 2, 3, 5, 7, 8, 10, 11}
+	}
+	var in [12]bool
+	for _, st := range steps {
+		in[(tonic+st)%12] = true
+	}
+	return in
 }
 
 // readStats reads a metrical-division file with gomidi.
@@ -45,6 +64,7 @@ func readStats(t *testing.T, f sampledata.File) fileStats {
 	}
 	st.ppq = int(mt.Resolution())
 	grid := int64(st.ppq / 12) // sixteenths, sixteenth triplets and swung eighths fall on it
+	var scale [12]bool
 	for _, tr := range sm.Tracks {
 		var tick int64
 		var name string
@@ -55,6 +75,10 @@ func readStats(t *testing.T, f sampledata.File) fileStats {
 			var ch, k, v uint8
 			var bpm float64
 			var num, den uint8
+			if len(msg) == 5 && msg[0] == 0xFF && msg[1] == 0x59 { // Key Signature: FF 59 02 sf mi
+				scale = scaleOf(int8(msg[3]), msg[4] == 1)
+				continue
+			}
 			switch {
 			case msg.GetMetaTrackName(&name):
 			case msg.GetMetaTempo(&bpm):
@@ -68,6 +92,12 @@ func readStats(t *testing.T, f sampledata.File) fileStats {
 				}
 				if tick%int64(st.ppq) == int64(st.ppq*2/3) {
 					st.swungOnsets++
+				}
+				if ch != 9 {
+					st.pitched++
+					if scale[k%12] {
+						st.inKey++
+					}
 				}
 				if ch == 9 {
 					st.drumNotes++
@@ -133,6 +163,7 @@ func TestSampleStatistics(t *testing.T) {
 		firstTempos                                                 []float64
 		meters                                                      = map[string]bool{}
 		meterChanges, swung, melodySteps, melodyMoves, badDrum      int
+		pitched, inKey                                              int
 		transposed, resaved                                         int
 	)
 	for _, f := range files {
@@ -189,6 +220,8 @@ func TestSampleStatistics(t *testing.T) {
 		if st.swungOnsets > st.noteOns/10 {
 			swung++
 		}
+		pitched += st.pitched
+		inKey += st.inKey
 		melodySteps += st.melodySteps
 		melodyMoves += st.melodyMoves
 		offShare := float64(st.offGrid) / float64(max(1, st.noteOns))
@@ -215,9 +248,9 @@ func TestSampleStatistics(t *testing.T) {
 		}
 	}
 	share := func(k int) float64 { return float64(k) / float64(n) }
-	t.Logf("%d files: drums %.3f, performance-timed %.3f, format 0 %.3f, format 2 %d, SMPTE %d, PPQ %v, meters %v, meter changes %d, swung %d, melody steps %.3f, transposed %d, resaved %d",
+	t.Logf("%d files: drums %.3f, performance-timed %.3f, format 0 %.3f, format 2 %d, SMPTE %d, PPQ %v, meters %v, meter changes %d, swung %d, melody steps %.3f, in key %.3f, transposed %d, resaved %d",
 		n, share(drumFiles), share(perfTimed), share(fmt0), fmt2, smpte, ppqs, meters, meterChanges, swung,
-		float64(melodySteps)/float64(melodyMoves), transposed, resaved)
+		float64(melodySteps)/float64(melodyMoves), float64(inKey)/float64(pitched), transposed, resaved)
 
 	// The promises of doc.go, "Statistics".
 	between(t, "share of files with drums", share(drumFiles), 0.52, 0.72)
@@ -244,6 +277,7 @@ func TestSampleStatistics(t *testing.T) {
 	between(t, "median initial tempo (BPM)", firstTempos[len(firstTempos)/2], 90, 130)
 	between(t, "share of performances with sustain pedal", float64(pedalPerf)/float64(perf), 0.75, 0.95)
 	between(t, "share of melody intervals of at most 2 semitones", float64(melodySteps)/float64(melodyMoves), 0.55, 0.95)
+	between(t, "share of pitched notes in the key signature's scale", float64(inKey)/float64(pitched), 0.95, 1)
 	for _, m := range []string{"3/4", "6/8", "7/8", "4/4", "2/4", "5/4", "12/8"} {
 		if !meters[m] {
 			t.Errorf("no file in %s", m)
