@@ -2,9 +2,12 @@ package ingest
 
 import (
 	"errors"
+	"fmt"
 	"math"
+	"os"
 	"reflect"
 	"runtime"
+	"sync"
 	"testing"
 )
 
@@ -590,5 +593,44 @@ func TestTimeMapManyTempos(t *testing.T) {
 		} else {
 			want += 0.5
 		}
+	}
+}
+
+// TestParseConcurrent checks that Parse, which reuses pooled state, gives the same
+// pieces from several goroutines as from one (run it with -race).
+func TestParseConcurrent(t *testing.T) {
+	inputs := [][]byte{specFormat0(), specFormat1(), riff(specFormat0())}
+	for _, p := range openttdPaths() {
+		if d, err := os.ReadFile(p); err == nil {
+			inputs = append(inputs, d)
+		}
+	}
+	want := make([][]Piece, len(inputs))
+	for i, d := range inputs {
+		ps, err := Parse("c.mid", d, DefaultParseOptions())
+		if err != nil {
+			t.Fatal(err)
+		}
+		want[i] = ps
+	}
+	var wg sync.WaitGroup
+	errs := make(chan string, 4*len(inputs))
+	for w := range 4 {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range inputs {
+				i := (k + w*7) % len(inputs)
+				ps, err := Parse("c.mid", inputs[i], DefaultParseOptions())
+				if err != nil || !reflect.DeepEqual(ps, want[i]) {
+					errs <- fmt.Sprintf("input %d differs from the sequential parse (err %v)", i, err)
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	close(errs)
+	for e := range errs {
+		t.Error(e)
 	}
 }
