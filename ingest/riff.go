@@ -11,9 +11,8 @@ import (
 //
 //	"RIFF" <u32le size> "RMID" { <id> <u32le size> <data> [pad byte to even size] }
 //
-// and the SMF is the payload of the "data" chunk. Sizes are checked against the bytes
-// that remain; the RIFF size itself is only an upper bound (some writers get it wrong),
-// so chunks are read up to the end of data or of the RIFF size, whichever is first.
+// and the SMF is the payload of the "data" chunk. Chunk sizes are checked against the
+// bytes that remain; the RIFF size itself is ignored, as some writers get it wrong.
 func unwrapRIFF(data []byte) ([]byte, int64, error) {
 	if len(data) < 4 || binary.BigEndian.Uint32(data) != idRIFF {
 		return data, 0, nil
@@ -25,9 +24,6 @@ func unwrapRIFF(data []byte) ([]byte, int64, error) {
 		return nil, 8, fmt.Errorf("%w: RIFF form %q, want \"RMID\"", ErrBadMagic, data[8:12])
 	}
 	limit := len(data)
-	if sz := binary.LittleEndian.Uint32(data[4:]); uint64(sz)+8 < uint64(limit) && sz >= 4 {
-		limit = int(sz) + 8
-	}
 	p := 12
 	for {
 		if limit-p < chunkHeaderLen {
