@@ -47,7 +47,8 @@
 //   - PPQ of the metrical files: 96 for 17% (10–24%), 384, 480 and 960 for 28%
 //     each (20–36%), no others;
 //   - every Set Tempo within 40–240 BPM; the median initial tempo within 90–130 BPM;
-//   - sustain pedal in 85% (75–95%) of performances; a human onset spread of 6 to
+//   - sustain pedal in 85% (75–95%) of performances, velocities spanning at least
+//     20 steps in each; a human onset spread of 6 to
 //     22 ms standard deviation per performance, bell-shaped, never beyond three
 //     deviations, with the melody a further 0–12 ms ahead;
 //   - at least 55% of successive melody intervals of 2 semitones or less;

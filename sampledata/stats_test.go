@@ -29,6 +29,8 @@ type fileStats struct {
 	melodySteps int // successive melody intervals of at most 2 semitones
 	melodyMoves int // successive melody intervals
 	programs    map[uint8]bool
+	minVel      uint8
+	maxVel      uint8
 	pitched     int // non-drum note-ons
 	inKey       int // of which in the scale of the key signature in effect
 }
@@ -57,7 +59,7 @@ func readStats(t *testing.T, f sampledata.File) fileStats {
 	if err != nil {
 		t.Fatalf("%s: gomidi smf.ReadFrom: %v", f.Path, err)
 	}
-	st := fileStats{kind: f.Kind, format: int(sm.Format()), programs: map[uint8]bool{}}
+	st := fileStats{kind: f.Kind, format: int(sm.Format()), programs: map[uint8]bool{}, minVel: 127}
 	mt, ok := sm.TimeFormat.(smf.MetricTicks)
 	if !ok {
 		t.Fatalf("%s: gomidi reads division %v, want metrical", f.Path, sm.TimeFormat)
@@ -87,6 +89,7 @@ func readStats(t *testing.T, f sampledata.File) fileStats {
 				st.meters = append(st.meters, fmt.Sprintf("%d/%d", num, den))
 			case msg.GetNoteStart(&ch, &k, &v):
 				st.noteOns++
+				st.minVel, st.maxVel = min(st.minVel, v), max(st.maxVel, v)
 				if tick%grid != 0 {
 					st.offGrid++
 				}
@@ -236,6 +239,9 @@ func TestSampleStatistics(t *testing.T) {
 			}
 			if !timed {
 				t.Errorf("%s: performance with only %.0f%% of onsets off the grid", f.Path, 100*offShare)
+			}
+			if st.maxVel-st.minVel < 20 {
+				t.Errorf("%s: performance velocities %d..%d, want dynamics spanning at least 20", f.Path, st.minVel, st.maxVel)
 			}
 		}
 		// A transposed file may copy a performance or a quantized piece.
