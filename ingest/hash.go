@@ -14,9 +14,9 @@ import (
 // Content hashes for duplicate detection.
 //
 // The musical hash covers the multiset of notes in beat time: each note's onset and
-// duration in quarter notes as exact reduced fractions of ticks over ticks per quarter
-// (so a file written at 96 PPQ and the same music at 480 PPQ agree), its pitch and its
-// drum flag. Track, channel, program, velocity and the tempo map are left out, so the same
+// duration in quarter notes as exact fractions of ticks over ticks per quarter, all
+// written over the piece's smallest common denominator (so a file written at 96 PPQ and
+// the same music at 480 PPQ agree), its pitch and its drum flag. Track, channel, program, velocity and the tempo map are left out, so the same
 // notes split over other tracks or channels, re-voiced or re-tempoed, hash alike. SMPTE
 // files have no beat time; their onsets are fractions of seconds (ticks over frames per
 // second times ticks per frame) instead, so they match only other SMPTE files.
@@ -93,26 +93,41 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	} else {
 		slices.SortFunc(h.keys, compareKeys)
 	}
+	// The onsets and durations are fractions over one denominator; dividing all of them
+	// and the denominator by their greatest common divisor gives the smallest common
+	// denominator, which is the same for any PPQ the same music is written at, and the
+	// numerators over it: an exact encoding without reducing each fraction.
+	g := uint64(den)
+	for _, k := range h.keys {
+		if g == 1 {
+			break
+		}
+		for _, v := range [2]int64{k.start * scale, k.dur * scale} {
+			if r := uint64(max(v, 0)) % g; r != 0 {
+				g = gcd(g, r)
+			}
+		}
+	}
+	pow2 := g&(g-1) == 0 // 1 included: shift instead of dividing
+	shift := uint(bits.TrailingZeros64(g))
+	div := func(v int64) uint64 {
+		if pow2 {
+			return uint64(max(v, 0)) >> shift
+		}
+		return uint64(max(v, 0)) / g
+	}
 	h.musical.Reset()
 	h.transpo.Reset()
 	m := append(h.buf[:0], hashVersion...)
 	m = append(m, unit) // quarter notes or seconds
+	m = binary.AppendUvarint(m, uint64(den)/g)
 	m = binary.AppendUvarint(m, uint64(len(h.keys)))
 	tr := append(h.tbuf[:0], m...)
-	// Chords share their onset and often their duration: encode each fraction once.
-	var onset, length [2 * binary.MaxVarintLen64]byte
-	var on, ln []byte
-	lastStart, lastDur := int64(-1), int64(-1)
 	for _, k := range h.keys {
-		if k.start != lastStart || on == nil {
-			on, lastStart = appendFraction(onset[:0], k.start*scale, den), k.start
-		}
-		if k.dur != lastDur || ln == nil {
-			ln, lastDur = appendFraction(length[:0], k.dur*scale, den), k.dur
-		}
-		m = append(append(m, on...), ln...)
+		on, ln := div(k.start*scale), div(k.dur*scale)
+		m = binary.AppendUvarint(binary.AppendUvarint(m, on), ln)
+		tr = binary.AppendUvarint(binary.AppendUvarint(tr, on), ln)
 		m = append(m, k.pitch, boolByte(k.drum))
-		tr = append(append(tr, on...), ln...)
 		rel := k.pitch
 		if !k.drum {
 			rel -= minPitch
@@ -143,19 +158,6 @@ func compareKeys(a, b noteKey) int {
 	return cmp.Compare(a.dur, b.dur)
 }
 
-// appendFraction appends num/den reduced to lowest terms, as two varints.
-func appendFraction(b []byte, num, den int64) []byte {
-	if num == 0 {
-		return append(b, 0, 1)
-	}
-	g := gcd(uint64(abs64(num)), uint64(den))
-	if g > 1 {
-		num, den = num/int64(g), den/int64(g)
-	}
-	b = binary.AppendVarint(b, num)
-	return binary.AppendUvarint(b, uint64(den))
-}
-
 // gcd is the binary (Stein's) greatest common divisor of a, b > 0: shifts and
 // subtractions, no divisions.
 func gcd(a, b uint64) uint64 {
@@ -175,13 +177,6 @@ func gcd(a, b uint64) uint64 {
 		b -= a
 	}
 	return a << shift
-}
-
-func abs64(x int64) int64 {
-	if x < 0 {
-		return -x
-	}
-	return x
 }
 
 func boolByte(b bool) byte {
