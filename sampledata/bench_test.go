@@ -7,7 +7,7 @@ import (
 	"github.com/relshard/relshard/sampledata"
 )
 
-// BenchmarkGenerate measures generation of a 1,000-file corpus (compose and write
+// BenchmarkGenerate measures generation of a 200-file corpus (compose and write
 // SMF bytes, nothing written to disk) with one worker and with two; ns/file is the
 // per-file cost.
 func BenchmarkGenerate(b *testing.B) {
@@ -17,7 +17,7 @@ func BenchmarkGenerate(b *testing.B) {
 	}{{"workers=1", 1}, {"workers=2", 2}} {
 		b.Run(w.name, func(b *testing.B) {
 			b.ReportAllocs()
-			const files = 1000
+			const files = 200
 			var size int64
 			for b.Loop() {
 				size = 0
