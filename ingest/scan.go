@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"runtime"
+	"sync/atomic"
 
 	"golang.org/x/sync/errgroup"
 )
@@ -117,6 +118,9 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 			h := newPieceHasher()
 			for j := range jobs {
 				r := processEntry(j.e, &opts, h)
+				if hook := scanProcessedHook.Load(); hook != nil {
+					(*hook)()
+				}
 				select {
 				case results <- done{j.seq, r}:
 				case <-gctx.Done():
@@ -178,6 +182,9 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 	}
 	return nil
 }
+
+// scanProcessedHook, when set (by tests), is called after each file is processed.
+var scanProcessedHook atomic.Pointer[func()]
 
 // withDefaults fills the zero fields.
 func (o Options) withDefaults() Options {

@@ -15,6 +15,7 @@ import (
 	"slices"
 	"sort"
 	"strings"
+	"sync/atomic"
 	"testing"
 	"time"
 
@@ -567,5 +568,37 @@ func TestScanOpenMSX(t *testing.T) {
 		if r.Record.Status != StatusOK || r.Record.Notes == 0 {
 			t.Errorf("%s: %s %s (%d notes)", r.Record.Path, r.Record.Status, r.Record.Reason, r.Record.Notes)
 		}
+	}
+}
+
+// TestScanBoundedInFlight: while yield is blocked, workers process at most the in-flight
+// bound (4 per worker) of files ahead of it, so the reorder buffer stays bounded.
+func TestScanBoundedInFlight(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "many")
+	files := map[string][]byte{}
+	for i := range 100 {
+		files[fmt.Sprintf("f%03d.mid", i)] = fxSMF(t, 96, false, fxTune(96, uint8(i%40)))
+	}
+	fxWrite(t, dir, files)
+	var processed atomic.Int64
+	hook := func() { processed.Add(1) }
+	scanProcessedHook.Store(&hook)
+	defer scanProcessedHook.Store(nil)
+	const workers = 2
+	var ahead int64
+	n := 0
+	err := Scan(context.Background(), []Source{{Path: dir}}, mixedOptions(workers), func(*Result) error {
+		if n == 0 {
+			time.Sleep(300 * time.Millisecond) // let the workers run as far ahead as they may
+			ahead = processed.Load()
+		}
+		n++
+		return nil
+	})
+	if err != nil || n != 100 {
+		t.Fatalf("Scan: %v, %d results", err, n)
+	}
+	if ahead > 4*workers || ahead < 2 {
+		t.Errorf("%d files processed while the first result waited, want 2 to %d", ahead, 4*workers)
 	}
 }
