@@ -70,7 +70,7 @@ func (c Config) Validate() error {
 		return fmt.Errorf("damaged %d: must not be negative", c.Damaged)
 	case c.Workers < 0:
 		return fmt.Errorf("workers %d: must not be negative", c.Workers)
-	case c.Files+c.Damaged > MaxFiles:
+	case c.Files > MaxFiles || c.Damaged > MaxFiles-c.Files:
 		return fmt.Errorf("%d files: more than %d", c.Files+c.Damaged, MaxFiles)
 	}
 	return nil

@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"errors"
+	"math"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -101,6 +102,7 @@ func TestConfigValidate(t *testing.T) {
 		{"negative damaged", sampledata.Config{Damaged: -2}, "damaged -2"},
 		{"negative workers", sampledata.Config{Workers: -1}, "workers -1"},
 		{"too many", sampledata.Config{Files: sampledata.MaxFiles, Damaged: 1}, "more than"},
+		{"overflow", sampledata.Config{Files: math.MaxInt, Damaged: 1}, "more than"},
 	}
 	for _, tc := range tests {
 		err := tc.cfg.Validate()
