@@ -71,7 +71,7 @@ func (c Config) Validate() error {
 	case c.Workers < 0:
 		return fmt.Errorf("workers %d: must not be negative", c.Workers)
 	case c.Files > MaxFiles || c.Damaged > MaxFiles-c.Files:
-		return fmt.Errorf("%d files: more than %d", c.Files+c.Damaged, MaxFiles)
+		return fmt.Errorf("files %d + damaged %d: more than %d in all", c.Files, c.Damaged, MaxFiles)
 	}
 	return nil
 }
