@@ -1,9 +1,6 @@
 package relpos
 
-import (
-	"errors"
-	"fmt"
-)
+import "fmt"
 
 // Kind is an offset kind.
 type Kind int
@@ -213,8 +210,6 @@ func (c Config) Tables() ([]Table, error) {
 	}
 	return out, nil
 }
-
-var errNoSchemes = errors.New("relpos: no schemes")
 
 // direction is the default direction of a log scheme of kind k: the pairs mode for
 // token distance and time (causal pairs have offsets ≤ 0), and bidirectional for

@@ -137,3 +137,51 @@ func TestCountRejectsBadWindow(t *testing.T) {
 		}
 	}
 }
+
+// FuzzCount: any window, valid or not, never panics; a valid one counts as the naive
+// enumeration does. Each token takes 4 bytes: time step, pitch, instrument, kind.
+func FuzzCount(f *testing.F) {
+	f.Add([]byte{0, 60, 0, 3, 10, 64, 0, 3, 0, 0, 0, 0, 200, 36, 128, 3})
+	f.Add([]byte{5, 200, 200, 200})
+	f.Fuzz(func(t *testing.T, data []byte) {
+		if len(data) > 4*200 {
+			return
+		}
+		var tokens []tokenize.Token
+		tm := int32(0)
+		for i := 0; i+3 < len(data); i += 4 {
+			step, p, inst, kind := data[i], data[i+1], data[i+2], data[i+3]
+			if kind == 7 {
+				tm -= int32(step) // a decreasing time: invalid window
+			} else {
+				tm += int32(step) * int32(1+kind%5*50)
+			}
+			tk := tokenize.Token{Time: tm, Pitch: int16(p) - 1, Inst: int16(inst) - 1}
+			if kind%2 == 0 {
+				tk.Pitch = -1
+			}
+			tokens = append(tokens, tk)
+		}
+		for _, pairs := range []Mode{Causal, Bidirectional} {
+			cfg := DefaultConfig()
+			cfg.Pairs, cfg.Joint = pairs, true
+			c, err := NewCounter(cfg)
+			if err != nil {
+				t.Fatal(err)
+			}
+			tally := c.NewTally()
+			err = c.Count(tally, tokens)
+			want, nerr := c.CountNaive(tokens)
+			if (err != nil) != (nerr != nil) {
+				t.Fatalf("fast error %v, naive error %v", err, nerr)
+			}
+			if err != nil {
+				continue
+			}
+			if got := c.Counts(tally); !reflect.DeepEqual(got, want) {
+				t.Fatalf("%s: fast counts differ from naive", pairs)
+			}
+			c.Report(tally, "ms")
+		}
+	})
+}

@@ -158,6 +158,16 @@ func (s *SchemeSpec) UnmarshalYAML(n *yaml.Node) error {
 		*s = spec
 		return nil
 	}
+	if n.Kind != yaml.MappingNode {
+		return fmt.Errorf("line %d: a scheme is a spec string or a mapping", n.Line)
+	}
+	known := map[string]bool{"scheme": true, "width": true, "clip": true, "buckets": true, "max": true,
+		"exact": true, "direction": true, "edges": true}
+	for i := 0; i+1 < len(n.Content); i += 2 {
+		if k := n.Content[i].Value; !known[k] {
+			return fmt.Errorf("line %d: unknown scheme key %q", n.Content[i].Line, k)
+		}
+	}
 	type plain SchemeSpec
 	var p plain
 	if err := n.Decode(&p); err != nil {

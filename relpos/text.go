@@ -61,7 +61,11 @@ func WriteTables(w io.Writer, tables []Table) error {
 		fmt.Fprintf(tw, "%s: %d buckets, offset = key - query\n", head, t.Buckets)
 		fmt.Fprintln(tw, "from\tto\tbucket\tsaturated")
 		for _, r := range t.Ranges {
-			fmt.Fprintf(tw, "%s\t%s\t%d\t%s\n", bound(r.From, "-inf"), bound(r.To, "+inf"), r.Bucket, r.Saturated)
+			sat := r.Saturated
+			if sat == "" {
+				sat = "-"
+			}
+			fmt.Fprintf(tw, "%s\t%s\t%d\t%s\n", bound(r.From, "-inf"), bound(r.To, "+inf"), r.Bucket, sat)
 		}
 	}
 	return tw.Flush()

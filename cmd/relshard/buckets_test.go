@@ -41,7 +41,7 @@ func TestBucketsText(t *testing.T) {
 	want := "distance linear:width=1,clip=2: 5 buckets, offset = key - query\n" +
 		"from  to    bucket  saturated\n" +
 		"-inf  -3    0       low\n" +
-		"-2    -2    0       \n"
+		"-2    -2    0       -\n"
 	if code != exitOK || !strings.HasPrefix(out, want) {
 		t.Errorf("exit %d, output\n%s\nwant prefix\n%s", code, out, want)
 	}
