@@ -241,7 +241,7 @@ func (ps *parser) finish(h Header, index int) Piece {
 		}
 		return 0
 	}
-	if len(ps.tempos) > 0 {
+	if len(ps.tempos) > 0 && h.FPS == 0 {
 		slices.SortStableFunc(ps.tempos, func(a, b Tempo) int { return byTick(a.Tick, b.Tick) })
 		p.Tempos = ps.tempos
 	}

@@ -634,3 +634,16 @@ func TestParseConcurrent(t *testing.T) {
 		t.Error(e)
 	}
 }
+
+func TestSMPTEDropsTempos(t *testing.T) {
+	// SMF 1.0: under SMPTE division, time is absolute; Set Tempo does not change it,
+	// so Tempos stays empty and TicksPerQuarter is the 120 BPM equivalent.
+	trk := cat([]byte{0x00, 0xFF, 0x51, 0x03, 0x0F, 0x42, 0x40}, eot)
+	ps, err := Parse("s.mid", smf(0, 0xE728, trk), ParseOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if p := ps[0]; len(p.Tempos) != 0 || p.TicksPerQuarter != 500 {
+		t.Errorf("tempos %v, ticks per quarter %d; want none and 500 (25 fps x 40 / 2)", p.Tempos, p.TicksPerQuarter)
+	}
+}

@@ -42,18 +42,27 @@ type Key struct {
 // Piece is one independent piece of music: a whole format-0 or format-1 file, or one
 // track of a format-2 file (each track of format 2 is an independent pattern).
 type Piece struct {
-	Index           int // 0 for format 0/1; the track index for format 2
-	Format          int
-	TicksPerQuarter int     // ticks per quarter note; for SMPTE files the derived equivalent at 120 BPM is not used, see SMPTE
+	Index  int // 0 for format 0/1; the track index for format 2
+	Format int
+	// TicksPerQuarter is the division in ticks per quarter note. For SMPTE division it
+	// is the equivalent at the default 120 BPM, round(fps × ticks per frame / 2), so that
+	// beat-based consumers see a steady 120 BPM; seconds come from SMPTEFPS and
+	// TicksPerFrame (use Seconds or TimeMap, which know both cases).
+	TicksPerQuarter int
 	SMPTEFPS        float64 // 0 unless the division is SMPTE: frames per second (29.97 for the drop-frame code 29)
 	TicksPerFrame   int     // SMPTE division only
-	Tempos          []Tempo // sorted by tick; empty means the SMF 1.0 default of 500,000 µs per quarter
-	Meters          []Meter // sorted by tick; empty means 4/4
-	Keys            []Key
-	TrackNames      []string
-	Notes           []Note // sorted by (StartTick, Track, Channel, Pitch)
-	EndTick         int64  // last event tick of the piece
-	Warnings        Warnings
+	// Tempos are the Set Tempo events, sorted by tick (stable: file order on ties, the
+	// last one rules); empty means the SMF 1.0 default of 500,000 µs per quarter. Always
+	// empty for SMPTE division, where tempo events do not change time (SMF 1.0).
+	Tempos []Tempo
+	Meters []Meter // Time Signature events sorted by tick (stable); empty means 4/4 (see MeterAt)
+	Keys   []Key   // Key Signature events sorted by tick (stable; see KeyAt)
+	// TrackNames holds the first Sequence/Track Name of each track, indexed by track
+	// ("" when none); for format 2, the one name of the piece's track.
+	TrackNames []string
+	Notes      []Note // sorted by (StartTick, Track, Channel, Pitch), then EndTick and Velocity
+	EndTick    int64  // tick of the last event (End of Track) of the piece's longest track
+	Warnings   Warnings
 
 	// Hashes, filled by Scan (hex SHA-256 prefixes): MusicalHash is the hash of the notes
 	// in beat time (independent of file layout, PPQ and track split); TransposedHash is
