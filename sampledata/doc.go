@@ -51,6 +51,8 @@
 //     20 steps in each; a human onset spread of 6 to 22 ms standard deviation per
 //     performance, bell-shaped, never beyond three deviations, with the melody a
 //     further 0–12 ms ahead;
+//   - every band arrangement (kind ensemble) uses at least three General MIDI
+//     programs (melody, chords and bass come from disjoint sets);
 //   - at least 55% of successive melody intervals of 2 semitones or less;
 //   - at least 95% of pitched notes in the scale of the file's Key Signature (the
 //     raised seventh of harmonic minor counted in; the rest are chromatic

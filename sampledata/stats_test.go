@@ -252,6 +252,9 @@ func TestSampleStatistics(t *testing.T) {
 		if st.noteOns == 0 {
 			t.Errorf("%s: no notes", f.Path)
 		}
+		if f.Kind == sampledata.KindEnsemble && len(st.programs) < 3 {
+			t.Errorf("%s: ensemble with %d General MIDI programs, want at least 3", f.Path, len(st.programs))
+		}
 	}
 	share := func(k int) float64 { return float64(k) / float64(n) }
 	t.Logf("%d files: drums %.3f, performance-timed %.3f, format 0 %.3f, format 2 %d, SMPTE %d, PPQ %v, meters %v, meter changes %d, swung %d, melody steps %.3f, in key %.3f, transposed %d, resaved %d",
