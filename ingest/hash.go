@@ -29,12 +29,32 @@ import (
 // hashVersion prefixes the hashed stream so that a change of encoding changes every hash.
 const hashVersion = "relshard notes v1"
 
-// noteKey is the part of a note that the content hashes cover.
+// noteKey is the part of a note that the content hashes cover: the start tick, and
+// packed in one word, ordered as the hash orders notes that start together: the drum
+// flag (keys first), the key, the duration in ticks.
 type noteKey struct {
-	start, dur int64
-	pitch      uint8
-	drum       bool
+	start int64
+	rest  uint64
 }
+
+const (
+	keyDrumBit  = 63
+	keyPitchPos = 56
+	keyDurMask  = 1<<keyPitchPos - 1
+)
+
+func packKey(n *Note) noteKey {
+	dur := uint64(max(n.EndTick-n.StartTick, 0))
+	r := min(dur, keyDurMask) | uint64(n.Pitch&0x7F)<<keyPitchPos
+	if n.Drum {
+		r |= 1 << keyDrumBit
+	}
+	return noteKey{n.StartTick, r}
+}
+
+func (k noteKey) dur() int64   { return int64(k.rest & keyDurMask) }
+func (k noteKey) pitch() uint8 { return uint8(k.rest>>keyPitchPos) & 0x7F }
+func (k noteKey) drum() bool   { return k.rest>>keyDrumBit != 0 }
 
 // pieceHasher computes content hashes, reusing its buffers between pieces.
 type pieceHasher struct {
@@ -70,7 +90,7 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	minPitch := uint8(255)
 	for i := range p.Notes {
 		n := &p.Notes[i]
-		h.keys = append(h.keys, noteKey{start: n.StartTick, dur: n.EndTick - n.StartTick, pitch: n.Pitch, drum: n.Drum})
+		h.keys = append(h.keys, packKey(n))
 		if !n.Drum && n.Pitch < minPitch {
 			minPitch = n.Pitch
 		}
@@ -85,9 +105,7 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 			for j < len(h.keys) && h.keys[j].start == h.keys[i].start {
 				j++
 			}
-			if j-i > 1 {
-				slices.SortFunc(h.keys[i:j], compareKeys)
-			}
+			sortRunByRest(h.keys[i:j])
 			i = j
 		}
 	} else {
@@ -102,7 +120,7 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 		if g == 1 {
 			break
 		}
-		for _, v := range [2]int64{k.start * scale, k.dur * scale} {
+		for _, v := range [2]int64{k.start * scale, k.dur() * scale} {
 			if r := uint64(max(v, 0)) % g; r != 0 {
 				g = gcd(g, r)
 			}
@@ -124,15 +142,16 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	m = binary.AppendUvarint(m, uint64(len(h.keys)))
 	tr := append(h.tbuf[:0], m...)
 	for _, k := range h.keys {
-		on, ln := div(k.start*scale), div(k.dur*scale)
+		on, ln := div(k.start*scale), div(k.dur()*scale)
 		m = binary.AppendUvarint(binary.AppendUvarint(m, on), ln)
 		tr = binary.AppendUvarint(binary.AppendUvarint(tr, on), ln)
-		m = append(m, k.pitch, boolByte(k.drum))
-		rel := k.pitch
-		if !k.drum {
+		pitch, drum := k.pitch(), k.drum()
+		m = append(m, pitch, boolByte(drum))
+		rel := pitch
+		if !drum {
 			rel -= minPitch
 		}
-		tr = append(tr, rel, boolByte(k.drum))
+		tr = append(tr, rel, boolByte(drum))
 	}
 	h.musical.Write(m)
 	h.transpo.Write(tr)
@@ -143,19 +162,25 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 }
 
 func compareKeys(a, b noteKey) int {
-	if c := cmp.Compare(a.start, b.start); c != 0 {
-		return c
+	return cmp.Or(cmp.Compare(a.start, b.start), cmp.Compare(a.rest, b.rest))
+}
+
+// sortRunByRest sorts notes that start together: insertion sort for the usual chord
+// sizes, the library sort beyond.
+func sortRunByRest(run []noteKey) {
+	if len(run) > 16 {
+		slices.SortFunc(run, compareKeys)
+		return
 	}
-	if a.drum != b.drum {
-		if a.drum {
-			return 1
+	for i := 1; i < len(run); i++ {
+		k := run[i]
+		j := i
+		for j > 0 && run[j-1].rest > k.rest {
+			run[j] = run[j-1]
+			j--
 		}
-		return -1
+		run[j] = k
 	}
-	if c := cmp.Compare(a.pitch, b.pitch); c != 0 {
-		return c
-	}
-	return cmp.Compare(a.dur, b.dur)
 }
 
 // gcd is the binary (Stein's) greatest common divisor of a, b > 0: shifts and
