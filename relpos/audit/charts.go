@@ -54,11 +54,19 @@ type Chart struct {
 	p *plot.Plot
 }
 
+// svgFonts gives the font the SVG names metric-compatible fallbacks, for viewers
+// without Liberation Sans.
+var svgFonts = strings.NewReplacer("font-family:Liberation Sans;", `font-family:'Liberation Sans',Arimo,Arial,Helvetica,sans-serif;`)
+
 // WriteSVG writes the chart as an SVG document.
 func (c *Chart) WriteSVG(w io.Writer) error {
 	cv := vgsvg.New(chartW, chartH)
 	c.p.Draw(draw.New(cv))
-	if _, err := cv.WriteTo(w); err != nil {
+	var buf bytes.Buffer
+	if _, err := cv.WriteTo(&buf); err != nil {
+		return fmt.Errorf("write chart %s: %w", c.Name, err)
+	}
+	if _, err := svgFonts.WriteString(w, buf.String()); err != nil {
 		return fmt.Errorf("write chart %s: %w", c.Name, err)
 	}
 	return nil
@@ -179,6 +187,13 @@ func newPlot(title, x, y string) *plot.Plot {
 	}
 	p.Legend.Top, p.Legend.Left = true, true
 	p.Legend.TextStyle.Color = inkColor
+	// Sans-serif text throughout (the SVG names Liberation Sans, with fallbacks).
+	p.Title.TextStyle.Font.Variant = "Sans"
+	p.Legend.TextStyle.Font.Variant = "Sans"
+	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Label.TextStyle.Font.Variant = "Sans"
+		a.Tick.Label.Font.Variant = "Sans"
+	}
 	p.Add(&plotter.Grid{Vertical: draw.LineStyle{}, Horizontal: draw.LineStyle{Color: gridColor, Width: vg.Points(0.5)}})
 	return p
 }

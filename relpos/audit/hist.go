@@ -199,16 +199,30 @@ func (b Bins) Index(v int64) int {
 	return max(i-1, 0)
 }
 
-// Count returns the coarse counts of h.
+// Count returns the coarse counts of h. Values ascend along the counters, so the
+// bin index only moves forward; only counters between h's extremes are read.
 func (b Bins) Count(h *Hist) []int64 {
 	out := make([]int64, len(b.Edges))
 	out[0] += h.Under
-	for i, c := range h.Counts {
-		if c != 0 {
-			out[b.Index(h.Lo+int64(i))] += c
-		}
-	}
 	out[len(out)-1] += h.Over
+	if h.N == 0 {
+		return out
+	}
+	lo := max(h.Min-h.Lo, 0)
+	hi := min(h.Max-h.Lo, int64(len(h.Counts))-1)
+	bin := -1
+	next := int64(math.MinInt64) // first value of the next bin
+	for i := lo; i <= hi; i++ {
+		v := h.Lo + i
+		if bin < 0 || v >= next {
+			bin = b.Index(v)
+			next = math.MaxInt64
+			if bin+1 < len(b.Edges) {
+				next = b.Edges[bin+1]
+			}
+		}
+		out[bin] += h.Counts[i]
+	}
 	return out
 }
 

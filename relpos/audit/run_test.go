@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync"
 	"testing"
 
 	"github.com/relshard/relshard/ingest"
@@ -27,31 +28,46 @@ func TestRunOpenMSXText(t *testing.T) {
 	}
 }
 
-// demoReport audits a small corpus of two datasets made in the test: the
-// openttd-openmsx files when present, split by name into two datasets, else skip.
+var (
+	demoOnce sync.Once
+	demoRep  *Report
+	demoErr  error
+)
+
+// demoReport audits a small corpus of two datasets made from the openttd-openmsx
+// files (split by name: one composer's files and the rest), once per test binary;
+// it skips when they are missing.
 func demoReport(t *testing.T) *Report {
 	t.Helper()
 	files := openmsxFiles(t)
-	dir := t.TempDir()
+	demoOnce.Do(func() { demoRep, demoErr = buildDemoReport(files) })
+	if demoErr != nil {
+		t.Fatal(demoErr)
+	}
+	return demoRep
+}
+
+func buildDemoReport(files []string) (*Report, error) {
+	dir, err := os.MkdirTemp("", "audit-demo")
+	if err != nil {
+		return nil, err
+	}
+	defer os.RemoveAll(dir)
 	for _, f := range files {
 		sub := "straight"
 		if strings.Contains(filepath.Base(f), "redfarn") {
 			sub = "redfarn"
 		}
 		if err := os.MkdirAll(filepath.Join(dir, sub), 0o755); err != nil {
-			t.Fatal(err)
+			return nil, err
 		}
 		data, err := os.ReadFile(f)
 		if err != nil {
-			t.Fatal(err)
+			return nil, err
 		}
 		if err := os.WriteFile(filepath.Join(dir, sub, filepath.Base(f)), data, 0o644); err != nil {
-			t.Fatal(err)
+			return nil, err
 		}
 	}
-	rep, err := Run(context.Background(), []ingest.Source{{Path: dir}}, DefaultConfig())
-	if err != nil {
-		t.Fatal(err)
-	}
-	return rep
+	return Run(context.Background(), []ingest.Source{{Path: dir}}, DefaultConfig())
 }
