@@ -49,13 +49,13 @@ type KindCounts struct {
 // Counts are the per-scheme counts of a tally (or of one window, from CountNaive).
 type Counts struct {
 	NoPitch int64                   `json:"no_pitch"`
-	Kinds   KindCounts3             `json:"kinds"`
-	Classes [numClasses]KindCounts3 `json:"classes"`
+	Kinds   ByKind             `json:"kinds"`
+	Classes [numClasses]ByKind `json:"classes"`
 	Joint   []int64                 `json:"joint,omitempty"`
 }
 
-// KindCounts3 holds the counts of the three kinds for one instrument class.
-type KindCounts3 [numKinds]KindCounts
+// ByKind holds the counts of each offset kind, indexed by Kind.
+type ByKind [numKinds]KindCounts
 
 // view reads the offsets of one kind of one stream of a tally.
 type view struct {
@@ -199,7 +199,7 @@ func (v *view) schemeCounts(s *Scheme, i int) SchemeCounts {
 // Counts returns the per-scheme counts of a tally of this counter.
 func (c *Counter) Counts(t *Tally) Counts {
 	out := Counts{NoPitch: t.NoPitch, Joint: append([]int64(nil), t.joint...)}
-	fill := func(s *stream, whole bool) (kc KindCounts3) {
+	fill := func(s *stream, whole bool) (kc ByKind) {
 		for _, k := range Kinds {
 			v := c.view(s, k, whole)
 			kc[k].Pairs = v.pairs
@@ -225,7 +225,7 @@ func (k *KindCounts) add(o KindCounts) {
 	}
 }
 
-func (k *KindCounts3) add(o KindCounts3) {
+func (k *ByKind) add(o ByKind) {
 	for i := range k {
 		k[i].add(o[i])
 	}

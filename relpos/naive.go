@@ -12,7 +12,7 @@ func (c *Counter) CountNaive(tokens []tokenize.Token) (Counts, error) {
 		return Counts{}, err
 	}
 	var out Counts
-	init3 := func(kc *KindCounts3) {
+	init3 := func(kc *ByKind) {
 		for _, k := range Kinds {
 			for _, s := range c.schemes[k] {
 				kc[k].Schemes = append(kc[k].Schemes, SchemeCounts{Buckets: make([]int64, s.Buckets())})
@@ -53,7 +53,7 @@ func (c *Counter) CountNaive(tokens []tokenize.Token) (Counts, error) {
 	return out, nil
 }
 
-func (c *Counter) naivePair(kc *KindCounts3, noPitch *int64, dist int64, q, k tokenize.Token) {
+func (c *Counter) naivePair(kc *ByKind, noPitch *int64, dist int64, q, k tokenize.Token) {
 	kc[Distance].Pairs++
 	for i, s := range c.schemes[Distance] {
 		kc[Distance].Schemes[i].record(s, dist)

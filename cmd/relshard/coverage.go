@@ -67,12 +67,17 @@ func (o *corpusFlags) config(cmd *cobra.Command, rf *relposFlags) (export.Config
 		{"transpose", func(c *export.Config) { c.Tokens.Transpose = slices.Clone(o.transpose) }},
 		{"keep-duplicates", func(c *export.Config) { c.Shards.KeepDuplicates = o.keepDuplicates }},
 	})
+	// Export counts every pair and refuses buckets.sample; for the reports the file's
+	// sampling keys stand, and the sampling flags win over them.
+	sample := cfg.Buckets.Sample
+	cfg.Buckets.Sample = 0
 	if err := rf.apply(cmd.Flags(), &cfg.Buckets); err != nil {
 		return cfg, err
 	}
 	if err := cfg.Validate(); err != nil {
 		return cfg, usageError("%v", err)
 	}
+	cfg.Buckets.Sample = sample
 	return cfg, rf.applySampling(cmd.Flags(), &cfg.Buckets)
 }
 

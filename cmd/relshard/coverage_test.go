@@ -112,6 +112,16 @@ func TestCoverageFlagsWinAndFormats(t *testing.T) {
 		len(rep.Time.Schemes) != 2 || !rep.Sampled || rep.Time.Schemes[0].InsideCI == nil {
 		t.Errorf("flags did not win over the config: pairs %s, pitch %+v, sampled %v", rep.Pairs, rep.Pitch.Schemes, rep.Sampled)
 	}
+	// buckets.sample in the file: sampled coverage (export refuses the key, coverage takes it).
+	sampled := filepath.Join(dir, "sampled.yaml")
+	if err := os.WriteFile(sampled, []byte(coverageYAML+"  sample: 0.2\n  seed: 5\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, stdout, _ = runArgs(t, "coverage", corpus, "--config", sampled, "--json")
+	rep = relpos.Report{}
+	if code != exitSkipped || json.Unmarshal([]byte(stdout), &rep) != nil || !rep.Sampled || rep.Sample != 0.2 {
+		t.Errorf("config sample: exit %d, sampled %v %v", code, rep.Sampled, rep.Sample)
+	}
 	code, stdout, _ = runArgs(t, "coverage", corpus, "--config", cfgPath, "--csv")
 	rows, err := csv.NewReader(strings.NewReader(stdout)).ReadAll()
 	if code != exitSkipped || err != nil || len(rows) < 10 || strings.Join(rows[0], ",") != strings.Join(relpos.CSVHeader, ",") {
