@@ -48,10 +48,10 @@ type KindCounts struct {
 
 // Counts are the per-scheme counts of a tally (or of one window, from CountNaive).
 type Counts struct {
-	NoPitch int64                   `json:"no_pitch"`
+	NoPitch int64              `json:"no_pitch"`
 	Kinds   ByKind             `json:"kinds"`
 	Classes [numClasses]ByKind `json:"classes"`
-	Joint   []int64                 `json:"joint,omitempty"`
+	Joint   []int64            `json:"joint,omitempty"`
 }
 
 // ByKind holds the counts of each offset kind, indexed by Kind.
