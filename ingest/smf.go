@@ -232,10 +232,9 @@ func (r *Reader) readHeader() error {
 	return nil
 }
 
-// NextTrack advances to the next track chunk, skipping the rest of the current
-// track (unchecked, when Next has not returned false yet) and any chunks of
-// unknown type. It returns false after the last declared
-// track or on error (see Err).
+// NextTrack advances to the next track chunk, skipping any chunks of unknown type
+// and the rest of the current track (unchecked when Next has not yet returned
+// false). It returns false after the last declared track or on error (see Err).
 func (r *Reader) NextTrack() bool {
 	if r.err != nil || r.doneAll {
 		return false
