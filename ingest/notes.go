@@ -17,6 +17,11 @@ package ingest
 // key, common practice in performance encodings; not counted as a retrigger). Notes
 // held by the pedal at the end of the track end there, without a warning.
 //
+// Channel mode messages (All Notes Off, CC 123, and the like) do not end notes: files
+// use them mostly as resets at the start or end, and the pairs stay comparable with
+// other readers (midicsv, gomidi) that report events, not sounding notes. Drum notes
+// (channel index 9) are paired like the others.
+//
 // Program changes are per channel across all tracks of a piece, in time order: each
 // note gets the program last set on its channel at or before its start (program
 // changes at the note's own tick apply first), General MIDI program 0 before any.
