@@ -205,6 +205,12 @@ func (c Config) Tables() ([]Table, error) {
 			}
 			t := s.Table()
 			t.Kind = k.String()
+			switch k {
+			case Distance:
+				t.Unit = "tokens"
+			case Pitch:
+				t.Unit = "semitones"
+			} // time: the encoding's unit, which the caller knows (ms or grid steps)
 			out = append(out, t)
 		}
 	}
