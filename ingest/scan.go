@@ -152,9 +152,10 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 			}
 			delete(pending, next)
 			next++
-			<-inFlight
 			d.check(r)
-			if err := yield(r); err != nil {
+			err := yield(r)
+			<-inFlight // only now, so a slow yield holds the pipeline back
+			if err != nil {
 				stopErr = err
 				cancel()
 				break
