@@ -17,7 +17,7 @@ type Stats struct {
 	OutOfRange   int `json:"out_of_range"`  // notes transposed out of 0-127, left out
 	// Merged counts performance notes dropped because another note of the same key
 	// starts at the same quantized time (a key cannot sound twice in one event
-	// stream); the longest is kept.
+	// stream); the longest is kept (then the loudest).
 	Merged int `json:"merged"`
 	// Retriggered counts performance notes cut short because a later note of the
 	// same key starts before they end (the earlier note ends at the later onset).
@@ -70,6 +70,7 @@ type Encoder struct {
 
 	pnotes []pnote
 	offs   []pendingOff
+	keys   []uint64
 	gnotes []gnote
 	bars   []barInfo
 	stream []Token

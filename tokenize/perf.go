@@ -15,7 +15,6 @@ type pnote struct {
 	pitch   uint8
 	vel     uint8 // bin
 	drum    bool
-	dead    bool // merged into another note of the same key and onset
 	inst    int16
 }
 
@@ -34,134 +33,192 @@ const smallSort = 24
 // each after a set-velocity when the bin changes, then note-offs of notes that began
 // at this very step (zero length after quantization), so every note-off follows its
 // note-on.
+//
+// Notes come from ingest sorted by onset, so the encoder streams over them one onset
+// group at a time; a piece out of onset order is sorted first.
 func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
 	var st Stats
 	st.Notes = len(p.Notes)
-	shift := float64(e.cfg.ShiftMS)
 	voc := e.vocab
-	notes := e.pnotes[:0]
-	sorted := true
-	for i := range p.Notes {
-		n := &p.Notes[i]
-		if n.Drum && e.cfg.Drums == DrumsDrop {
-			st.DrumsDropped++
-			continue
-		}
-		pitch := int(n.Pitch)
-		if !n.Drum {
-			pitch += v.Transpose
-		}
-		if pitch < 0 || pitch > 127 {
-			st.OutOfRange++
-			continue
-		}
-		onMS := n.Start * 1000 * v.Stretch
-		offMS := n.End * 1000 * v.Stretch
-		if !(onMS >= 0) || !(offMS >= onMS) || offMS > maxMS {
-			if offMS > maxMS {
-				return dst, st, fmt.Errorf("encode: %w: note %d ends at %.0f s", ErrTooLong, i, n.End)
-			}
-			return dst, st, fmt.Errorf("encode: %w: note %d has times %v..%v s", ErrBadPiece, i, n.Start, n.End)
-		}
-		pn := pnote{on: int64(math.Round(onMS / shift)), off: int64(math.Round(offMS / shift)),
-			pitch: uint8(pitch), vel: uint8(voc.velBin(n.Velocity)), drum: n.Drum, inst: int16(n.Program)}
-		if n.Drum {
-			pn.off = pn.on
-			pn.inst = InstDrums
-		}
-		if len(notes) > 0 && pn.on < notes[len(notes)-1].on {
-			sorted = false
-		}
-		notes = append(notes, pn)
-	}
-	if !sorted { // ingest sorts notes by onset; hand-made pieces may not be
-		slices.SortStableFunc(notes, func(a, b pnote) int { return cmp.Compare(a.on, b.on) })
-	}
-	e.pnotes = notes
-
-	// One note per key at a time, in onset order: at the same onset keep the longest;
-	// a note still sounding when its key starts again ends there (retrigger).
-	var last [2][128]int32 // index+1 of the key's latest note
-	for i := range notes {
-		n := &notes[i]
-		d := 0
-		if n.drum {
-			d = 1
-		}
-		if j := last[d][n.pitch]; j != 0 {
-			l := &notes[j-1]
-			if l.on == n.on {
-				st.Merged++
-				if n.off > l.off {
-					l.off, l.vel, l.inst = n.off, n.vel, n.inst
-				}
-				n.dead = true
-				continue
-			}
-			if !n.drum && n.on < l.off {
-				l.off = n.on
-				st.Retriggered++
-			}
-		}
-		last[d][n.pitch] = int32(i + 1)
-	}
-	st.Encoded = len(notes) - st.Merged
-
 	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
-		shiftBase: voc.shiftBase, offBase: voc.offBase, heap: e.offs[:0]}
+		heap: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
 	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
-	curVel := -1
-	for g := 0; g < len(notes); {
-		s := notes[g].on
-		h := g
-		for h < len(notes) && notes[h].on == s {
-			h++
+	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS) // seconds to steps
+	group := e.pnotes[:0]
+	for i := range p.Notes {
+		pn, ok, err := e.quantize(&p.Notes[i], i, v.Transpose, scale, &st)
+		if err != nil {
+			return dst, st, err
 		}
-		group := notes[g:h]
-		g = h
-		sortGroup(group)
-		if !o.offsUpTo(s) || !o.advance(s) {
-			return o.dst, st, errStreamTooLong()
+		if !ok {
+			continue
 		}
-		ms := int32(o.cur * o.shiftMS)
-		for i := range group {
-			n := &group[i]
-			if n.dead {
-				continue
+		if len(group) > 0 && pn.on != group[0].on {
+			if pn.on < group[0].on {
+				e.pnotes = group
+				return e.encodePerformanceUnsorted(p, v, dst)
 			}
-			if int(n.vel) != curVel {
-				curVel = int(n.vel)
-				o.dst = append(o.dst, Token{ID: voc.velBase + int32(n.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
+			if err := e.emitGroup(&o, group, &st); err != nil {
+				return o.dst, st, err
 			}
-			id := voc.onBase + int32(n.pitch)
-			if n.drum {
-				id = voc.hitBase + int32(n.pitch)
-			}
-			o.dst = append(o.dst, Token{ID: id, Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+			group = group[:0]
 		}
-		for i := range group {
-			n := &group[i]
-			if n.dead || n.drum {
-				continue
-			}
-			if n.off == n.on {
-				o.dst = append(o.dst, Token{ID: voc.offBase + int32(n.pitch), Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
-			} else {
-				o.heap = pushOff(o.heap, pendingOff{step: n.off, pitch: n.pitch, inst: n.inst})
-			}
+		group = append(group, pn)
+	}
+	e.pnotes = group
+	return e.finishPerformance(&o, group, &st)
+}
+
+// encodePerformanceUnsorted encodes a piece whose notes are not in onset order.
+func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
+	var st Stats
+	st.Notes = len(p.Notes)
+	voc := e.vocab
+	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
+		heap: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
+	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
+	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS)
+	notes := e.pnotes[:0]
+	for i := range p.Notes {
+		pn, ok, err := e.quantize(&p.Notes[i], i, v.Transpose, scale, &st)
+		if err != nil {
+			return dst, st, err
 		}
-		if len(o.dst)-o.start > MaxStreamTokens {
-			return o.dst, st, errStreamTooLong()
+		if ok {
+			notes = append(notes, pn)
+		}
+	}
+	slices.SortStableFunc(notes, func(a, b pnote) int { return cmp.Compare(a.on, b.on) })
+	e.pnotes = notes
+	g := 0
+	for h := range notes {
+		if notes[h].on != notes[g].on {
+			if err := e.emitGroup(&o, notes[g:h], &st); err != nil {
+				return o.dst, st, err
+			}
+			g = h
+		}
+	}
+	return e.finishPerformance(&o, notes[g:], &st)
+}
+
+// quantize turns one note into shift steps; ok is false for a note left out.
+func (e *Encoder) quantize(n *ingest.Note, i, transpose int, scale float64, st *Stats) (pnote, bool, error) {
+	if n.Drum && e.cfg.Drums == DrumsDrop {
+		st.DrumsDropped++
+		return pnote{}, false, nil
+	}
+	pitch := int(n.Pitch)
+	if !n.Drum {
+		pitch += transpose
+	}
+	if pitch < 0 || pitch > 127 {
+		st.OutOfRange++
+		return pnote{}, false, nil
+	}
+	on, off := n.Start*scale, n.End*scale
+	if !(on >= 0) || !(off >= on) || off*float64(e.cfg.ShiftMS) > maxMS {
+		if off*float64(e.cfg.ShiftMS) > maxMS {
+			return pnote{}, false, fmt.Errorf("encode: %w: note %d ends at %.0f s", ErrTooLong, i, n.End)
+		}
+		return pnote{}, false, fmt.Errorf("encode: %w: note %d has times %v..%v s", ErrBadPiece, i, n.Start, n.End)
+	}
+	pn := pnote{on: int64(math.Round(on)), off: int64(math.Round(off)), pitch: uint8(pitch),
+		vel: e.vocab.velBins[n.Velocity&127], drum: n.Drum, inst: int16(n.Program)}
+	if n.Drum {
+		pn.off, pn.inst = pn.on, InstDrums
+	}
+	return pn, true, nil
+}
+
+// finishPerformance emits the last group, the remaining note-offs and the end token.
+func (e *Encoder) finishPerformance(o *perfOut, last []pnote, st *Stats) ([]Token, Stats, error) {
+	if len(last) > 0 {
+		if err := e.emitGroup(o, last, st); err != nil {
+			return o.dst, *st, err
 		}
 	}
 	if !o.offsUpTo(math.MaxInt64) {
-		return o.dst, st, errStreamTooLong()
+		return o.dst, *st, errStreamTooLong()
 	}
 	e.offs = o.heap
+	st.Encoded = st.Notes - st.DrumsDropped - st.OutOfRange - st.Merged
 	ms := int32(o.cur * o.shiftMS)
 	o.dst = append(o.dst, Token{ID: EndID, Time: ms, MS: ms, Pitch: -1, Inst: -1})
 	st.Tokens = len(o.dst) - o.start
-	return o.dst, st, nil
+	return o.dst, *st, nil
+}
+
+// emitGroup emits the notes that start at one step.
+func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
+	voc := e.vocab
+	s := group[0].on
+	// Order the group by key, a note before a hit of the same key, through sort keys
+	// that carry the note's index (so notes of one key stay in piece order).
+	keys := e.keys[:0]
+	for i := range group {
+		n := &group[i]
+		k := uint64(n.pitch)<<33 | uint64(uint32(i))
+		if n.drum {
+			k |= 1 << 32
+		}
+		keys = append(keys, k)
+	}
+	sortKeys(keys)
+	e.keys = keys
+	// One note per key at a time: at the same onset keep the longest (then the
+	// loudest, then the lowest program, so piece order does not matter); a key still
+	// sounding past this onset ends here (retrigger).
+	kept := keys[:0]
+	for _, key := range keys {
+		n := &group[uint32(key)]
+		if len(kept) > 0 {
+			if l := &group[uint32(kept[len(kept)-1])]; l.pitch == n.pitch && l.drum == n.drum {
+				st.Merged++
+				if n.off > l.off || (n.off == l.off && (n.vel > l.vel || (n.vel == l.vel && n.inst < l.inst))) {
+					l.off, l.vel, l.inst = n.off, n.vel, n.inst
+				}
+				continue
+			}
+		}
+		if !n.drum && o.keyOff[n.pitch] > s {
+			o.retrigger(n.pitch, s)
+			st.Retriggered++
+		}
+		kept = append(kept, key)
+	}
+	if !o.offsUpTo(s) || !o.advance(s) {
+		return errStreamTooLong()
+	}
+	ms := int32(o.cur * o.shiftMS)
+	for _, key := range kept {
+		n := &group[uint32(key)]
+		if int(n.vel) != o.curVel {
+			o.curVel = int(n.vel)
+			o.dst = append(o.dst, Token{ID: voc.velBase + int32(n.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
+		}
+		id := voc.onBase + int32(n.pitch)
+		if n.drum {
+			id = voc.hitBase + int32(n.pitch)
+		}
+		o.dst = append(o.dst, Token{ID: id, Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+	}
+	for _, key := range kept {
+		n := &group[uint32(key)]
+		if n.drum {
+			continue
+		}
+		o.keyOff[n.pitch] = n.off
+		if n.off == n.on {
+			o.dst = append(o.dst, Token{ID: voc.offBase + int32(n.pitch), Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+		} else {
+			o.heap = pushOff(o.heap, pendingOff{step: n.off, pitch: n.pitch, inst: n.inst})
+		}
+	}
+	if len(o.dst)-o.start > MaxStreamTokens {
+		return errStreamTooLong()
+	}
+	return nil
 }
 
 func errStreamTooLong() error {
@@ -174,9 +231,30 @@ type perfOut struct {
 	start             int
 	cur               int64 // current time in steps
 	maxSteps, shiftMS int64
+	curVel            int // current velocity bin, -1 before the first
 	shiftBase         int32
 	offBase           int32
 	heap              []pendingOff
+	keyOff            [128]int64 // off step of each key's latest note
+}
+
+// retrigger moves the pending note-off of key (the note sounding past step) to step.
+func (o *perfOut) retrigger(key uint8, step int64) {
+	h := o.heap
+	for i := range h {
+		if h[i].pitch == key && h[i].step > step {
+			h[i].step = step
+			for i > 0 {
+				p := (i - 1) / 2
+				if !offLess(h[i], h[p]) {
+					break
+				}
+				h[i], h[p] = h[p], h[i]
+				i = p
+			}
+			return
+		}
+	}
 }
 
 // advance emits the time-shifts up to step; false when the stream would grow past
@@ -213,31 +291,16 @@ func (o *perfOut) offsUpTo(step int64) bool {
 	return true
 }
 
-// sortGroup orders the notes of one onset by key, a note before a hit of the same key.
-func sortGroup(g []pnote) {
-	less := func(a, b *pnote) bool { return a.pitch < b.pitch || (a.pitch == b.pitch && !a.drum && b.drum) }
-	i := 1
-	for i < len(g) && !less(&g[i], &g[i-1]) {
-		i++
-	}
-	if i >= len(g) {
-		return // already in order, as single-track chords come from ingest
-	}
-	if len(g) > smallSort {
-		slices.SortStableFunc(g, func(a, b pnote) int {
-			if less(&a, &b) {
-				return -1
-			}
-			if less(&b, &a) {
-				return 1
-			}
-			return 0
-		})
+// sortKeys sorts the sort keys of one onset group: insertion sort for the usual
+// few notes, the standard library's sort for big groups.
+func sortKeys(k []uint64) {
+	if len(k) > smallSort {
+		slices.Sort(k)
 		return
 	}
-	for ; i < len(g); i++ {
-		for j := i; j > 0 && less(&g[j], &g[j-1]); j-- {
-			g[j], g[j-1] = g[j-1], g[j]
+	for i := 1; i < len(k); i++ {
+		for j := i; j > 0 && k[j] < k[j-1]; j-- {
+			k[j], k[j-1] = k[j-1], k[j]
 		}
 	}
 }
