@@ -109,3 +109,24 @@ func BenchmarkReport(b *testing.B) {
 		c.Report(tally, "ms")
 	}
 }
+
+// BenchmarkCountJoint adds the time × pitch table, which walks every pitched pair.
+func BenchmarkCountJoint(b *testing.B) {
+	cfg := benchConfig()
+	cfg.Joint = true
+	c, err := NewCounter(cfg)
+	if err != nil {
+		b.Fatal(err)
+	}
+	tokens := benchWindow(2048)
+	tally := c.NewTally()
+	if err := c.Count(tally, tokens); err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		if err := c.Count(tally, tokens); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
