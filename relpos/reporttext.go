@@ -88,14 +88,18 @@ func (r *Report) WriteText(w io.Writer, opt TextOptions) error {
 		}
 		if len(kr.Recommend) > 0 {
 			var parts []string
-			for _, rec := range kr.Recommend {
+			for i, rec := range kr.Recommend {
 				clip := strconv.FormatInt(rec.Clip, 10)
 				if !rec.Exact {
 					clip = fmt.Sprintf("%d-%d", rec.Clip, rec.ClipHigh)
 				}
-				parts = append(parts, fmt.Sprintf("width %d: %s -> clip %s (%d rows)", rec.Width, pct(rec.Target), clip, rec.Rows))
+				part := fmt.Sprintf("%s -> clip %s (%d rows)", pct(rec.Target), clip, rec.Rows)
+				if i == 0 || kr.Recommend[i-1].Width != rec.Width {
+					part = fmt.Sprintf("width %d: %s", rec.Width, part)
+				}
+				parts = append(parts, part)
 			}
-			fmt.Fprintf(tw, "  smallest clip reaching a target: %s\n", strings.Join(parts, "; "))
+			fmt.Fprintf(tw, "  smallest clip reaching a target: %s\n", strings.Join(parts, ", "))
 		}
 		if len(kr.Budget) > 0 {
 			var parts []string

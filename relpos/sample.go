@@ -14,7 +14,9 @@ import (
 // simple random sample of its pairs and each share gets a Wilson interval. key
 // identifies the window (e.g. a hash of piece, variant and window index): the draw
 // depends only on the seed and the key, so results do not depend on the order or the
-// number of workers. Cost is O(L + sampled pairs).
+// number of workers. Cost is O(L + sampled pairs): exact counting already costs only
+// O(L·C), so sampling pays where exact costs O(L²) — the joint table — or for rates
+// below about C/L.
 func (c *Counter) Sample(t *Tally, tokens []tokenize.Token, key uint64) error {
 	if !t.sampled {
 		return fmt.Errorf("relpos: Sample on an exact tally; use Count")
