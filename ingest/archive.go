@@ -156,7 +156,7 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 				}
 				defer rc.Close()
 				// archive/zip also fails an entry that inflates past its declared size.
-				data, err := readCapped(rc, lim.MaxEntrySize, size,
+				data, err := readCapped(rc, lim.MaxEntrySize, min(size, maxPrealloc),
 					fmt.Errorf("inflates past the cap %s: %w", sizeString(lim.MaxEntrySize), ErrEntryTooLarge))
 				if err != nil {
 					if errors.Is(err, ErrEntryTooLarge) {
@@ -173,6 +173,11 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 	}
 	return nil
 }
+
+// maxPrealloc bounds the buffer sized from an entry header's declared size before any
+// byte is read: a header may claim far more than the archive holds, so beyond this the
+// buffer grows only as bytes arrive.
+const maxPrealloc = 1 << 20
 
 // tarItem is one tar header seen in the listing pass.
 type tarItem struct {
@@ -341,9 +346,13 @@ func readTarWindow(ctx context.Context, path string, gz bool, window []tarItem, 
 			return fmt.Errorf("entry %d is now %q: %w", i, hdr.Name, ErrArchiveChanged)
 		}
 		// it.size was checked against Limits.MaxEntrySize in the listing pass, and the tar
-		// reader yields exactly hdr.Size bytes or an error.
-		b := make([]byte, it.size)
-		if _, err := io.ReadFull(tr, b); err != nil {
+		// reader yields exactly hdr.Size bytes or an error; the buffer is sized from the
+		// header only up to maxPrealloc, as the stream may end before.
+		b, err := readCapped(tr, it.size, min(it.size, maxPrealloc), ErrArchiveChanged)
+		if err == nil && int64(len(b)) != it.size {
+			err = io.ErrUnexpectedEOF
+		}
+		if err != nil {
 			return fmt.Errorf("read tar entry %s: %w: %w", it.name, err, ErrBadArchive)
 		}
 		data[i] = b
