@@ -73,8 +73,9 @@ func readCapped(r io.Reader, max, sizeHint int64, tooBig error) ([]byte, error) 
 	}
 	var buf bytes.Buffer
 	if sizeHint > 0 {
-		// One spare byte so that reading the expected size and then EOF needs no regrowth.
-		buf.Grow(int(sizeHint) + 1)
+		// bytes.Buffer.ReadFrom wants MinRead free bytes before each read: that much
+		// spare room lets it read the expected size and then EOF without regrowing.
+		buf.Grow(int(sizeHint) + bytes.MinRead)
 	}
 	n, err := buf.ReadFrom(io.LimitReader(r, max+1))
 	if err != nil {
