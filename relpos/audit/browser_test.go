@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"html"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -14,21 +15,33 @@ import (
 	"time"
 )
 
-// probeScript runs inside the page once it is laid out and writes what it measured
-// into the DOM as JSON, for --dump-dom to carry out: the charts present and drawn,
-// and every element whose box pokes out to the right of the viewport.
-const probeScript = `<script>
-(function () {
-  var vw = document.documentElement.clientWidth;
-  var charts = document.querySelectorAll('svg.chart');
-  var drawn = 0;
+// probeWidths are the viewport widths the report is measured at: a common laptop
+// width in CSS pixels, and a small one.
+var probeWidths = []int{1366, 1024}
+
+// probeHarness loads the report into one iframe per width (srcdoc frames share the
+// harness's origin, so its script can measure inside them) and, once everything is
+// laid out, writes what it measured into the DOM as JSON for --dump-dom to carry out:
+// the charts present and drawn, and every element whose box pokes out to the right of
+// the frame's viewport. A self-test adds an element too wide on purpose and checks that
+// it is caught.
+const probeHarness = `<!DOCTYPE html><html><head><meta charset="utf-8"></head><body style="margin:0">
+{{FRAMES}}
+<script>
+function probe(frame) {
+  var doc = frame.contentDocument, root = doc.documentElement;
+  // Grow the frame to its content, so the report never scrolls inside it and no
+  // scroll bar takes width from the viewport.
+  frame.style.height = (Math.ceil(doc.body.getBoundingClientRect().bottom) + 40) + 'px';
+  var vw = root.clientWidth;
+  var charts = doc.querySelectorAll('svg.chart'), drawn = 0;
   charts.forEach(function (c) {
     var r = c.getBoundingClientRect();
     if (r.width > 200 && r.height > 100 && c.querySelectorAll('path').length > 10) drawn++;
   });
   function overflowing() {
     var over = [];
-    document.querySelectorAll('body *').forEach(function (el) {
+    doc.querySelectorAll('body *').forEach(function (el) {
       var r = el.getBoundingClientRect();
       if (r.width > 0 && r.right > vw + 1 && over.length < 20) {
         over.push(el.tagName.toLowerCase() + (typeof el.className === 'string' && el.className ? '.' + el.className : '') + ' right=' + Math.round(r.right));
@@ -36,30 +49,25 @@ const probeScript = `<script>
     });
     return over;
   }
-  var over = overflowing();
-  var scrollWidth = document.documentElement.scrollWidth;
-  // Self-test: a table cell too wide for the page must be caught.
-  var wide = document.createElement('div');
+  var result = {viewport: vw, scrollWidth: root.scrollWidth, height: Math.ceil(doc.body.getBoundingClientRect().bottom),
+    charts: charts.length, drawn: drawn, figures: doc.querySelectorAll('figure').length, overflowing: overflowing()};
+  var wide = doc.createElement('div');
   wide.style.width = (vw + 300) + 'px';
   wide.textContent = 'x';
-  document.querySelector('section').appendChild(wide);
-  var caught = overflowing().length > 0 && document.documentElement.scrollWidth > vw;
+  doc.querySelector('section').appendChild(wide);
+  result.selfTest = overflowing().length > 0 && root.scrollWidth > vw;
   wide.remove();
-  var out = document.createElement('pre');
-  out.id = 'relshard-probe';
-  out.textContent = JSON.stringify({
-    viewport: vw,
-    scrollWidth: scrollWidth,
-    selfTest: caught,
-    height: document.documentElement.scrollHeight,
-    charts: charts.length,
-    drawn: drawn,
-    figures: document.querySelectorAll('figure').length,
-    overflowing: over
-  });
-  document.body.appendChild(out);
-})();
-</script>`
+  return result;
+}
+window.addEventListener('load', function () {
+  var out = [];
+  document.querySelectorAll('iframe').forEach(function (f) { out.push(probe(f)); });
+  var pre = document.createElement('pre');
+  pre.id = 'relshard-probe';
+  pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+});
+</script></body></html>`
 
 type probe struct {
 	Viewport    int      `json:"viewport"`
@@ -81,6 +89,8 @@ func chromiumArgs(profile string, width, height int) []string {
 
 func runChromium(t *testing.T, args ...string) []byte {
 	t.Helper()
+	start := time.Now()
+	defer func() { t.Logf("chromium ran %v", time.Since(start).Round(time.Millisecond)) }()
 	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
 	defer cancel()
 	cmd := exec.CommandContext(ctx, chromiumPath, args...)
@@ -131,25 +141,36 @@ func TestHTMLInBrowser(t *testing.T) {
 	}
 
 	dir := t.TempDir()
-	probed := bytes.Replace(page, []byte("</body>"), []byte(probeScript+"</body>"), 1)
+	var frames strings.Builder
+	for _, w := range probeWidths {
+		fmt.Fprintf(&frames, `<iframe style="display:block;border:0;width:%dpx;height:800px" srcdoc="%s"></iframe>`,
+			w, html.EscapeString(string(page)))
+	}
+	harness := strings.Replace(probeHarness, "{{FRAMES}}", frames.String(), 1)
 	probePath := filepath.Join(dir, "probe.html")
-	if err := os.WriteFile(probePath, probed, 0o644); err != nil {
+	if err := os.WriteFile(probePath, []byte(harness), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	var height int
-	// A common laptop width in CSS pixels, and a small one.
-	for _, width := range []int{1366, 1024} {
-		out := runChromium(t, append(chromiumArgs(filepath.Join(dir, fmt.Sprint("profile", width)), width, 800),
-			"--dump-dom", "file://"+probePath)...)
-		m := probeRE.FindSubmatch(out)
-		if m == nil {
-			t.Fatalf("width %d: the probe left no result in the DOM (%d bytes dumped)", width, len(out))
-		}
-		var p probe
-		if err := json.Unmarshal([]byte(htmlUnescape(string(m[1]))), &p); err != nil {
-			t.Fatalf("width %d: probe result %q: %v", width, m[1], err)
-		}
+	out := runChromium(t, append(chromiumArgs(filepath.Join(dir, "profile-probe"), 1400, 800),
+		"--dump-dom", "file://"+probePath)...)
+	m := probeRE.FindSubmatch(out)
+	if m == nil {
+		t.Fatalf("the probe left no result in the DOM (%d bytes dumped)", len(out))
+	}
+	var probes []probe
+	if err := json.Unmarshal([]byte(htmlUnescape(string(m[1]))), &probes); err != nil {
+		t.Fatalf("probe result %q: %v", m[1], err)
+	}
+	if len(probes) != len(probeWidths) {
+		t.Fatalf("%d probe results, want %d", len(probes), len(probeWidths))
+	}
+	height := 0
+	for i, p := range probes {
+		width := probeWidths[i]
 		t.Logf("width %d: %+v", width, p)
+		if p.Viewport != width {
+			t.Errorf("width %d: the frame's viewport is %d px", width, p.Viewport)
+		}
 		if p.Charts != wantCharts || p.Drawn != wantCharts {
 			t.Errorf("width %d: %d charts in the DOM, %d drawn; want %d", width, p.Charts, p.Drawn, wantCharts)
 		}
@@ -160,7 +181,7 @@ func TestHTMLInBrowser(t *testing.T) {
 			t.Errorf("width %d: page overflows horizontally: scroll width %d > viewport %d; elements: %v",
 				width, p.ScrollWidth, p.Viewport, p.Overflowing)
 		}
-		if width == 1366 {
+		if i == 0 {
 			height = p.Height
 		}
 	}
