@@ -30,8 +30,28 @@
 // belongs to (a General MIDI program, InstDrums for drums) and -1 for tokens that
 // belong to no note.
 //
-// A performance stream for a middle C held half a second, then an E:
+// A performance stream for a middle C held half a second, then an E for a quarter
+// second (velocity 96, bin 24), with each token's time:
 //
-//	begin  vel.24  on.60  dt.500  off.60  on.64  dt.250  off.64  end
-//	time:  0       0      0       500     500    500     750     750    750
+//	begin@0 vel.24@0 on.60@0 dt.500@500 off.60@500 on.64@500 dt.250@750 off.64@750 end@750
+//
+// and the same notes on the default grid (12 steps per quarter, 120 BPM):
+//
+//	begin@0 bar@0 meter.4/4@0 tempo.19@0 pos.0@0 inst.piano@0 pitch.60@0 dur.12@0 vel.24@0
+//	pos.12@12 pitch.64@12 dur.6@12 vel.24@12 end@12
+//
+// Quantization: performance times are rounded to the nearest shift step, so onsets
+// and releases move by at most shift_ms/2; a key sounds once at a time (a second
+// note-on of a sounding key ends the first; two notes of one key at one step merge
+// into the longest), and the encoder counts both in Stats. Grid times are rounded to
+// the nearest step; notes already on the grid come back with onset, duration and key
+// exact. Velocities come back inside their bin. Encoder.Fidelity measures all this
+// for one piece.
+//
+// Windows cut a stream into training windows of at most max_len tokens that each
+// decode on their own; see Encoder.Windows. Augmentation variants (transposition,
+// tempo stretch) are listed by Encoder.Variants, the identity first, and Windows
+// walks them all, so every consumer sees the same windows in the same order.
+//
+// Decode turns ids back into notes and WriteSMF writes them as a Standard MIDI File.
 package tokenize
