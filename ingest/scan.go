@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"runtime"
+	"sync"
 	"sync/atomic"
 
 	"golang.org/x/sync/errgroup"
@@ -111,29 +112,35 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 		}
 		return nil
 	})
-	workersDone := make(chan struct{})
-	var wg errgroup.Group
+	var workers sync.WaitGroup
 	for range opts.Workers {
-		wg.Go(func() error {
+		workers.Add(1)
+		g.Go(func() error {
+			defer workers.Done()
 			h := newPieceHasher()
 			for j := range jobs {
-				r := processEntry(j.e, &opts, h)
+				if gctx.Err() != nil {
+					// Cancelled: keep taking jobs so the producer's sends end, but read nothing.
+					if j.e.release != nil {
+						j.e.release()
+					}
+					continue
+				}
+				r := processGuarded(j.e, &opts, h)
 				if hook := scanProcessedHook.Load(); hook != nil {
 					(*hook)()
 				}
 				select {
 				case results <- done{j.seq, r}:
 				case <-gctx.Done():
-					// Drain so the producer's sends end too.
 				}
 			}
 			return nil
 		})
 	}
 	go func() {
-		wg.Wait()
+		workers.Wait()
 		close(results)
-		close(workersDone)
 	}()
 
 	d := newDeduper(opts.KeepDuplicates)
@@ -167,7 +174,6 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 			}
 		}
 	}
-	<-workersDone
 	gErr := g.Wait()
 	if stopErr != nil {
 		return stopErr
@@ -197,6 +203,19 @@ func (o Options) withDefaults() Options {
 	}
 	o.Limits = o.Limits.withDefaults()
 	return o
+}
+
+// processGuarded is processEntry turning a panic, which would be a bug (Parse never
+// panics on input), into a skipped record that says so, so one bad file cannot end a
+// long run.
+func processGuarded(e *entry, opts *Options, h *pieceHasher) (r *Result) {
+	defer func() {
+		if p := recover(); p != nil {
+			r = skip(&Result{Record: FileRecord{Dataset: e.dataset, Source: e.source, Path: e.path}},
+				fmt.Errorf("internal error, a bug in relshard (please report it with the file): %v", p))
+		}
+	}()
+	return processEntry(e, opts, h)
 }
 
 // processEntry reads, parses, filters and hashes one input file; every outcome is a result.
