@@ -27,8 +27,10 @@
 //
 // so times never decrease along a stream. Pitch is 0-127 on note-on, note-off, hit
 // and pitch tokens and -1 elsewhere. Inst is the instrument of the note a token
-// belongs to (a General MIDI program, InstDrums for drums) and -1 for tokens that
-// belong to no note.
+// belongs to and -1 for tokens that belong to no note: in the performance encoding
+// the note's General MIDI program (informative only: the ids do not keep it), in the
+// grid the first program of its family (what the inst token keeps); InstDrums for
+// drums in both.
 //
 // A performance stream for a middle C held half a second, then an E for a quarter
 // second (velocity 96, bin 24), with each token's time:

@@ -28,5 +28,5 @@ type Window struct {
 	// Prefix is the number of leading tokens that restate the state at the cut;
 	// Tokens[Prefix:] is the stream from index Start on.
 	Prefix int
-	Start  int
+	Start  int // index in the variant's stream of Tokens[Prefix]
 }
