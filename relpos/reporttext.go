@@ -50,10 +50,13 @@ func (r *Report) unit(k Kind) string {
 	case Distance:
 		return "tokens"
 	case Time:
-		if r.TimeUnit != "" {
-			return r.TimeUnit
+		switch r.TimeUnit {
+		case "":
+			return "time units"
+		case "grid":
+			return "grid steps"
 		}
-		return "time units"
+		return r.TimeUnit
 	}
 	return "semitones"
 }
