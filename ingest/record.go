@@ -84,7 +84,7 @@ type DatasetSummary struct {
 	Skipped    int                   `json:"skipped"`
 	Duplicates int                   `json:"duplicates"`
 	SkippedBy  map[string]int        `json:"skipped_by"`    // by ReasonClass
-	DupsBy     map[DuplicateKind]int `json:"duplicates_by"` // by kind
+	DupsBy     map[DuplicateKind]int `json:"duplicates_by"` // by kind, kept copies included
 	Notes      int64                 `json:"notes"`
 	DrumNotes  int64                 `json:"drum_notes"`
 	Seconds    float64               `json:"seconds"`
@@ -154,6 +154,9 @@ func (d *DatasetSummary) add(r *Result) {
 		d.Duplicates++
 		d.DupsBy[rec.DuplicateKind]++
 		return
+	}
+	if rec.DuplicateKind != "" {
+		d.DupsBy[rec.DuplicateKind]++ // a copy kept by Options.KeepDuplicates
 	}
 	d.OK++
 	d.PPQ[rec.TicksPerQuarter]++
