@@ -165,7 +165,7 @@ func (e *Encoder) Windows(p *ingest.Piece, yield func(Window) error) error {
 		if err != nil {
 			return fmt.Errorf("variant %s: %w", v, err)
 		}
-		if err := e.cut(e.stream, v, yield); err != nil {
+		if err := e.cut(e.stream, v, yield, true); err != nil {
 			return err
 		}
 	}
@@ -175,7 +175,7 @@ func (e *Encoder) Windows(p *ingest.Piece, yield func(Window) error) error {
 // WindowsOf cuts an already encoded stream (of this encoder's config) into windows,
 // as Windows does for one variant.
 func (e *Encoder) WindowsOf(stream []Token, v Variant, yield func(Window) error) error {
-	return e.cut(stream, v, yield)
+	return e.cut(stream, v, yield, false)
 }
 
 // cutState follows a stream up to a cut point to know the state a window needs.
@@ -191,7 +191,10 @@ type cutState struct {
 	velAt    int // stream index of vel (performance): look-backs stop there
 }
 
-func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error) error {
+// cut yields the windows of stream s. With inPlace (the encoder's own stream) and a
+// stride that leaves no overlap, a window's prefix is written over the end of the
+// previous window, which its consumer no longer holds, so no tokens are copied.
+func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error, inPlace bool) error {
 	n := len(s)
 	maxLen, stride, minLen := e.cfg.MaxLen, e.cfg.stride(), e.cfg.MinLen
 	grid := e.cfg.Encoding == Grid
@@ -221,10 +224,17 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error) error {
 				return fmt.Errorf("cut: %w: no window boundary in %d tokens at token %d", errInternalBug, room, body)
 			}
 		}
-		w = append(w, s[body:end]...)
+		plen := len(w)
 		e.window = w
+		if inPlace && stride >= end-body && plen <= body {
+			copy(s[body-plen:body], w)
+			w = s[body-plen : end]
+		} else {
+			w = append(w, s[body:end]...)
+			e.window = w
+		}
 		if len(w) >= minLen && len(w) > 0 {
-			if err := yield(Window{Index: idx, Variant: v, Tokens: w, Start: start, Prefix: len(w) - (end - body)}); err != nil {
+			if err := yield(Window{Index: idx, Variant: v, Tokens: w, Start: start, Prefix: plen}); err != nil {
 				return err
 			}
 			idx++

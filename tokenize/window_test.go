@@ -188,3 +188,50 @@ func mustIDs(e *Encoder, s string) []int32 {
 	}
 	return out
 }
+
+// TestWindowsInPlace checks that Windows, which writes prefixes into its own stream
+// instead of copying, yields exactly what WindowsOf yields from a copy of the stream.
+func TestWindowsInPlace(t *testing.T) {
+	for _, enc := range []string{Performance, Grid} {
+		for _, stride := range []int{0, 50} {
+			cfg := DefaultConfig()
+			cfg.Encoding = enc
+			cfg.Drums = DrumsKeep
+			cfg.MaxLen, cfg.Stride, cfg.MinLen = 64, stride, 0
+			cfg.Transpose = []int{0, 3}
+			e := mustEncoder(t, cfg)
+			for pi, p := range windowPieces(t) {
+				var want [][]Token
+				var wantMeta [][3]int
+				for _, v := range e.Variants() {
+					stream, _, err := e.Encode(&p, v, nil)
+					if err != nil {
+						t.Fatal(err)
+					}
+					err = e.WindowsOf(stream, v, func(w Window) error {
+						want = append(want, slices.Clone(w.Tokens))
+						wantMeta = append(wantMeta, [3]int{w.Index, w.Start, w.Prefix})
+						return nil
+					})
+					if err != nil {
+						t.Fatal(err)
+					}
+				}
+				i := 0
+				err := e.Windows(&p, func(w Window) error {
+					if i >= len(want) || !slices.Equal(w.Tokens, want[i]) || [3]int{w.Index, w.Start, w.Prefix} != wantMeta[i] {
+						t.Fatalf("%s stride %d piece %d: window %d differs from WindowsOf", enc, stride, pi, i)
+					}
+					i++
+					return nil
+				})
+				if err != nil {
+					t.Fatal(err)
+				}
+				if i != len(want) {
+					t.Errorf("%s stride %d piece %d: %d windows, want %d", enc, stride, pi, i, len(want))
+				}
+			}
+		}
+	}
+}
