@@ -9,6 +9,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"github.com/relshard/relshard/relpos"
+	"github.com/relshard/relshard/tokenize"
 )
 
 // relposFlags are the flags that set the relpos config; each has the name of its YAML
@@ -123,14 +124,17 @@ func (f *relposFlags) applySampling(fs *pflag.FlagSet, cfg *relpos.Config) error
 
 // bucketsOptions are the flags of relshard buckets.
 type bucketsOptions struct {
-	relpos relposFlags
-	kind   string
-	json   bool
-	cfg    relpos.Config // resolved from the flags
+	relpos     relposFlags
+	configPath string
+	kind       string
+	json       bool
+	cfg        relpos.Config // resolved from the config file and the flags
+	timeUnit   string
 }
 
 func (o *bucketsOptions) AddFlags(fs *pflag.FlagSet) {
 	o.relpos.AddFlags(fs, false)
+	fs.StringVar(&o.configPath, "config", "", "YAML config file: the tables of its buckets section (flags win over it)")
 	fs.StringVar(&o.kind, "kind", "", "print only this offset kind: distance, time or pitch")
 	fs.BoolVar(&o.json, "json", false, "print the tables as JSON (the form stored with the shards)")
 }
@@ -141,7 +145,15 @@ func (o *bucketsOptions) Validate(fs *pflag.FlagSet) error {
 	default:
 		return usageError("--kind %q: want distance, time or pitch", o.kind)
 	}
-	o.cfg = relpos.DefaultConfig()
+	cfg, err := loadConfig(o.configPath)
+	if err != nil {
+		return err
+	}
+	o.cfg = cfg.Buckets
+	o.timeUnit = "ms"
+	if cfg.Tokens.Encoding == tokenize.Grid {
+		o.timeUnit = "grid steps"
+	}
 	return o.relpos.apply(fs, &o.cfg)
 }
 
@@ -149,6 +161,11 @@ func runBuckets(_ context.Context, o *bucketsOptions, s *streams) error {
 	tables, err := o.cfg.Tables()
 	if err != nil {
 		return &exitError{code: exitFailed, err: err}
+	}
+	for i := range tables {
+		if tables[i].Kind == "time" {
+			tables[i].Unit = o.timeUnit
+		}
 	}
 	if o.kind != "" {
 		var keep []relpos.Table
@@ -178,7 +195,8 @@ func init() {
 			Short: "Print relative-position bucket tables",
 			Long: `Print the bucket table of every relative-position scheme: which offsets (key minus
 query, so causal offsets are ≤ 0) map to which bucket id, and which are saturated.
-Without scheme flags the default schemes are printed. --json prints the tables as
+Without scheme flags the schemes of the config file's buckets section (--config)
+are printed, or the defaults. --json prints the tables as
 they are stored with the shards, so that training code applies exactly the same
 mapping.
 

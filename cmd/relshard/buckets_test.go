@@ -2,6 +2,8 @@ package main
 
 import (
 	"encoding/json"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -47,5 +49,26 @@ func TestBucketsText(t *testing.T) {
 	}
 	if code, _, _ := runArgs(t, "buckets", "--time", "log:buckets=3"); code != exitUsage {
 		t.Errorf("bad spec: exit %d, want %d", code, exitUsage)
+	}
+}
+
+func TestBucketsConfigFile(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "c.yaml")
+	if err := os.WriteFile(path, []byte("tokens:\n  encoding: grid\nbuckets:\n  time: [\"linear:width=12,clip=4\"]\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errOut := runArgs(t, "buckets", "--config", path, "--kind", "time", "--json")
+	var tables []relpos.Table
+	if code != exitOK || json.Unmarshal([]byte(out), &tables) != nil {
+		t.Fatalf("exit %d: %s", code, errOut)
+	}
+	if len(tables) != 1 || tables[0].Name != "linear:width=12,clip=4" || tables[0].Unit != "grid steps" || tables[0].Buckets != 9 {
+		t.Errorf("tables = %+v", tables)
+	}
+	// The flag wins over the file.
+	code, out, _ = runArgs(t, "buckets", "--config", path, "--kind", "time", "--json", "--time", "log:buckets=16,max=96")
+	tables = nil
+	if code != exitOK || json.Unmarshal([]byte(out), &tables) != nil || len(tables) != 1 || tables[0].Scheme != "log" {
+		t.Errorf("flag did not win: exit %d, %+v", code, tables)
 	}
 }
