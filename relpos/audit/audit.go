@@ -4,7 +4,6 @@ import (
 	"cmp"
 	"errors"
 	"fmt"
-	"math"
 	"slices"
 
 	"github.com/relshard/relshard/ingest"
@@ -116,7 +115,7 @@ type dsAcc struct {
 func newDSAcc(tally *relpos.Tally) *dsAcc {
 	return &dsAcc{
 		notes: newNoteStats(),
-		dt:    newHist(0, maxPairDT),
+		dt:    newDTHist(),
 		dp:    newHist(-maxPairDP, maxPairDP),
 		grids: map[string]int{},
 		ppqs:  map[string]int{},
@@ -193,7 +192,7 @@ func New(cfg Config) (*Auditor, error) {
 		enc:      enc,
 		counter:  counter,
 		datasets: map[string]*dsAcc{},
-		fdt:      newHist(0, maxPairDT),
+		fdt:      newDTHist(),
 		fdp:      newHist(-maxPairDP, maxPairDP),
 	}, nil
 }
@@ -287,17 +286,7 @@ func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) err
 	return nil
 }
 
-// resetHist empties h, clearing only the counters between its extremes.
-func resetHist(h *Hist) {
-	if h.N > 0 {
-		lo := max(h.Min-h.Lo, 0)
-		hi := min(h.Max-h.Lo, int64(len(h.Counts))-1)
-		if lo <= hi {
-			clear(h.Counts[lo : hi+1])
-		}
-	}
-	*h = Hist{Lo: h.Lo, Counts: h.Counts, Min: math.MaxInt64, Max: math.MinInt64}
-}
+func resetHist(h *Hist) { h.reset() }
 
 // Merge adds everything b has accumulated to a. b must have the same config.
 func (a *Auditor) Merge(b *Auditor) {

@@ -64,7 +64,7 @@ func BenchmarkAuditPiece(b *testing.B) {
 }
 
 func BenchmarkWasserstein(b *testing.B) {
-	x, y := newHist(0, maxPairDT), newHist(0, maxPairDT)
+	x, y := newDTHist(), newDTHist()
 	for v := int64(0); v < 100_000; v += 7 {
 		x.AddN(v, v%13+1)
 		y.AddN(v+50, v%11+1)

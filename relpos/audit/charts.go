@@ -210,14 +210,14 @@ func logEdges(hi float64, steps int) []float64 {
 	}
 }
 
-// sumRange is the count of values in [lo, hi) among the values with their own
-// counters.
+// sumRange is the count of the counters whose smallest value lies in [lo, hi).
 func sumRange(h *Hist, lo, hi float64) int64 {
-	a := max(int64(math.Ceil(lo)), h.Lo)
-	b := min(int64(math.Ceil(hi))-1, h.Hi())
+	a, b := h.span()
 	var n int64
-	for v := a; v <= b; v++ {
-		n += h.Counts[v-h.Lo]
+	for i := a; i <= b; i++ {
+		if v := float64(h.lower(i)); v >= lo && v < hi {
+			n += h.Counts[i]
+		}
 	}
 	return n
 }
@@ -248,7 +248,10 @@ func timeHist(name, dataset, what, unit string, h *Hist, schemes []Scheme) *Char
 	hist := &plotter.Histogram{Bins: bins, FillColor: barColor, LineStyle: draw.LineStyle{Color: barColor, Width: vg.Points(0.3)}}
 	p.Add(hist)
 	p.Legend.Add("share of values", hist)
-	zero := h.Counts[0-h.Lo]
+	var zero int64
+	if h.Lo <= 0 && h.Hi() >= 0 {
+		zero = h.Counts[h.index(0)]
+	}
 	if zero > 0 {
 		c.Caption = fmt.Sprintf("%.1f%% of the values are 0 and lie left of the log axis. ", 100*float64(zero)/float64(h.N))
 	}
@@ -262,15 +265,16 @@ func timeHist(name, dataset, what, unit string, h *Hist, schemes []Scheme) *Char
 	return c
 }
 
-// cdfPoints returns the share of values ≤ x for each x of xs, which ascend.
+// cdfPoints returns the share of values ≤ x for each x of xs, which ascend; a
+// counter counts from its smallest value on.
 func cdfPoints(h *Hist, xs []float64) plotter.XYs {
 	pts := make(plotter.XYs, 0, len(xs))
 	seen := h.Under
-	next := h.Lo // first value not yet summed
+	next := int64(0) // first counter not yet summed
 	for _, x := range xs {
 		v := int64(math.Floor(x))
-		for next <= v && next <= h.Hi() {
-			seen += h.Counts[next-h.Lo]
+		for next < int64(len(h.Counts)) && h.lower(next) <= v {
+			seen += h.Counts[next]
 			next++
 		}
 		y := float64(seen) / float64(h.N)
@@ -363,8 +367,8 @@ func pitchHist(name, dataset string, h *Hist, schemes []Scheme) *Chart {
 	bins := make([]plotter.HistogramBin, 0, 2*r+1)
 	ymax := 0.0
 	var outside int64
-	for v := h.Lo; v <= h.Hi(); v++ {
-		n := h.Counts[v-h.Lo]
+	for i := range int64(len(h.Counts)) { // one counter per semitone
+		v, n := h.lower(i), h.Counts[i]
 		if v < -r || v > r {
 			outside += n
 			continue

@@ -2,31 +2,86 @@ package audit
 
 import (
 	"math"
+	"math/bits"
 	"sort"
 )
 
-// Hist counts integer values exactly: one counter per value in [Lo, Lo+len(Counts)),
-// with values outside the range counted in Under and Over. Min and Max are those of
-// every value added, inside the range or not. Counts and sums are integers, so
-// merging histograms in any order gives the same result.
+// Hist counts integer values: one counter per value for offsets v − Lo below Exact,
+// and above it 64 counters per octave (each at most 1/64 of its values wide, as in a
+// high-dynamic-range histogram), so that a range of hours in ms costs a few thousand
+// counters. Values outside [Lo, Hi()] are counted in Under and Over. Min and Max are
+// those of every value added. Counts and sums are integers, so merging histograms in
+// any order gives the same result. Exact 0 means one counter per value throughout.
 type Hist struct {
 	Lo     int64
+	Exact  int64 // a power of two ≥ 64, or 0
 	Counts []int64
 	Under  int64 // values below Lo
-	Over   int64 // values above the last counter
+	Over   int64 // values above Hi()
 	N      int64 // all values
-	Sum    int64 // sum of all values (saturating is not needed for ms over hours)
+	Sum    int64 // sum of all values
 	Min    int64
 	Max    int64
+
+	e int64 // log2(Exact)
 }
+
+// subBits gives 2^subBits counters per octave above the exact range.
+const subBits = 6
 
 // newHist returns a histogram with one counter per value in [lo, hi].
 func newHist(lo, hi int64) *Hist {
 	return &Hist{Lo: lo, Counts: make([]int64, hi-lo+1), Min: math.MaxInt64, Max: math.MinInt64}
 }
 
-// Hi is the largest value with its own counter.
-func (h *Hist) Hi() int64 { return h.Lo + int64(len(h.Counts)) - 1 }
+// newWideHist returns a histogram over [lo, at least hi] with exact counters for the
+// first exact values (a power of two ≥ 64) and 64 per octave beyond.
+func newWideHist(lo, hi, exact int64) *Hist {
+	h := &Hist{Lo: lo, Exact: exact, Min: math.MaxInt64, Max: math.MinInt64, e: int64(bits.Len64(uint64(exact))) - 1}
+	h.Counts = make([]int64, h.index(hi)+1)
+	return h
+}
+
+// index is the counter of value v ≥ Lo (no bounds check at the top).
+func (h *Hist) index(v int64) int64 {
+	off := v - h.Lo
+	if h.Exact == 0 || off < h.Exact {
+		return off
+	}
+	o := int64(bits.Len64(uint64(off))) - 1 // octave: 2^o ≤ off < 2^(o+1)
+	return h.Exact + (o-h.e)<<subBits + (off>>(o-subBits))&(1<<subBits-1)
+}
+
+// lower is the smallest value of counter i.
+func (h *Hist) lower(i int64) int64 {
+	if h.Exact == 0 || i < h.Exact {
+		return h.Lo + i
+	}
+	j := i - h.Exact
+	o := h.e + j>>subBits
+	return h.Lo + 1<<o + (j&(1<<subBits-1))<<(o-subBits)
+}
+
+// upper is the largest value of counter i.
+func (h *Hist) upper(i int64) int64 { return h.lower(i+1) - 1 }
+
+// Hi is the largest value counted inside the range.
+func (h *Hist) Hi() int64 { return h.upper(int64(len(h.Counts)) - 1) }
+
+// span returns the counters that can be non-zero: those between Min and Max.
+func (h *Hist) span() (lo, hi int64) {
+	if h.N == 0 {
+		return 0, -1
+	}
+	lo, hi = 0, int64(len(h.Counts))-1
+	if h.Min > h.Lo {
+		lo = min(h.index(h.Min), hi)
+	}
+	if h.Max < h.Hi() {
+		hi = h.index(max(h.Max, h.Lo))
+	}
+	return lo, hi
+}
 
 // Add counts the value v once.
 func (h *Hist) Add(v int64) { h.AddN(v, 1) }
@@ -36,34 +91,30 @@ func (h *Hist) AddN(v, n int64) {
 	if n <= 0 {
 		return
 	}
-	switch i := v - h.Lo; {
-	case i < 0:
+	switch {
+	case v < h.Lo:
 		h.Under += n
-	case i >= int64(len(h.Counts)):
+	case v-h.Lo < h.Exact || h.Exact == 0 && v-h.Lo < int64(len(h.Counts)):
+		h.Counts[v-h.Lo] += n
+	case v > h.Hi():
 		h.Over += n
 	default:
-		h.Counts[i] += n
+		h.Counts[h.index(v)] += n
 	}
 	h.N += n
 	h.Sum += v * n
-	if v < h.Min {
-		h.Min = v
-	}
-	if v > h.Max {
-		h.Max = v
-	}
+	h.Min = min(h.Min, v)
+	h.Max = max(h.Max, v)
 }
 
-// Merge adds the counts of o, which must have the same range.
+// Merge adds the counts of o, which must have the same layout.
 func (h *Hist) Merge(o *Hist) {
-	if o.N == 0 {
-		return
-	}
-	// Only the counters between o's extremes can be non-zero.
-	lo := max(o.Min-o.Lo, 0)
-	hi := min(o.Max-o.Lo, int64(len(o.Counts))-1)
+	lo, hi := o.span()
 	for i := lo; i <= hi; i++ {
 		h.Counts[i] += o.Counts[i]
+	}
+	if o.N == 0 {
+		return
 	}
 	h.Under += o.Under
 	h.Over += o.Over
@@ -71,6 +122,15 @@ func (h *Hist) Merge(o *Hist) {
 	h.Sum += o.Sum
 	h.Min = min(h.Min, o.Min)
 	h.Max = max(h.Max, o.Max)
+}
+
+// reset empties h, clearing only the counters that can be non-zero.
+func (h *Hist) reset() {
+	lo, hi := h.span()
+	if lo <= hi {
+		clear(h.Counts[lo : hi+1])
+	}
+	*h = Hist{Lo: h.Lo, Exact: h.Exact, Counts: h.Counts, Min: math.MaxInt64, Max: math.MinInt64, e: h.e}
 }
 
 // Mean is the mean of all values, NaN when empty.
@@ -82,9 +142,10 @@ func (h *Hist) Mean() float64 {
 }
 
 // Quantile returns the smallest value v with at least q·N values ≤ v (the inverse
-// of the empirical distribution function). It is exact when that value has its own
-// counter; in the tails it returns Min or Max, whichever side it falls on, and ok
-// false. An empty histogram returns 0, false.
+// of the empirical distribution function, R's type 1). ok is true when the answer is
+// exact: its counter holds one value. In a wide counter it returns the counter's
+// middle (within 1/128 of the true value); in the tails Min or Max. An empty
+// histogram returns 0, false.
 func (h *Hist) Quantile(q float64) (v int64, ok bool) {
 	if h.N == 0 {
 		return 0, false
@@ -95,86 +156,72 @@ func (h *Hist) Quantile(q float64) (v int64, ok bool) {
 		return h.Min, false
 	}
 	seen := h.Under
-	for i, c := range h.Counts {
-		seen += c
+	lo, hi := h.span()
+	for i := lo; i <= hi; i++ {
+		seen += h.Counts[i]
 		if seen >= rank {
-			return h.Lo + int64(i), true
+			a, b := h.lower(i), h.upper(i)
+			a, b = max(a, h.Min), min(b, h.Max)
+			return a + (b-a)/2, a == b
 		}
 	}
 	return h.Max, false
 }
 
-// ShareAtMost is the share of values ≤ v.
-func (h *Hist) ShareAtMost(v int64) float64 {
-	if h.N == 0 {
-		return math.NaN()
-	}
-	var n int64
-	switch i := v - h.Lo; {
-	case i < 0:
-		if v >= h.Max {
-			return 1
-		}
-		return math.NaN() // inside the uncounted lower tail
-	case i >= int64(len(h.Counts)):
-		if v >= h.Max {
-			return 1
-		}
-		return math.NaN()
-	default:
-		n = h.Under
-		for _, c := range h.Counts[:i+1] {
-			n += c
-		}
-	}
-	return float64(n) / float64(h.N)
-}
-
-// support returns the values with a non-zero count and their counts as weights,
-// merging neighbouring counters into groups of width w (the smallest power of two
-// that leaves at most maxPoints groups) and placing each group at the mean of its
-// values. Tail counts sit at Min and Max. The width used is returned.
-func (h *Hist) support(maxPoints int) (xs, ws []float64, width int64) {
-	width = 1
+// support returns the non-zero counters as weighted points at the middle of their
+// values (Min and Max bound the extreme ones), merging groups of 2^k neighbouring
+// counters until at most maxPoints remain, each group at the weighted mean of its
+// counters. Tail counts sit at Min and Max. resolution is the widest value range
+// merged into one point (1 is exact).
+func (h *Hist) support(maxPoints int) (xs, ws []float64, resolution int64) {
+	lo, hi := h.span()
+	group := int64(1)
 	for {
 		groups := 0
-		last := int64(math.MinInt64)
-		for i, c := range h.Counts {
-			if c == 0 {
+		last := int64(-1)
+		for i := lo; i <= hi; i++ {
+			if h.Counts[i] == 0 {
 				continue
 			}
-			if g := int64(i) / width; g != last {
+			if g := i / group; g != last {
 				groups++
 				last = g
 			}
 		}
-		if groups+2 <= maxPoints || width >= int64(len(h.Counts)) {
+		if groups+2 <= maxPoints || group >= int64(len(h.Counts)) {
 			break
 		}
-		width *= 2
+		group *= 2
 	}
 	if h.Under > 0 {
 		xs = append(xs, float64(h.Min))
 		ws = append(ws, float64(h.Under))
 	}
+	resolution = 1
 	last := int64(-1)
 	var sumV, sumC float64
+	var first, lastVal int64
 	flush := func() {
 		if sumC > 0 {
 			xs = append(xs, sumV/sumC)
 			ws = append(ws, sumC)
+			resolution = max(resolution, lastVal-first+1)
 		}
 		sumV, sumC = 0, 0
 	}
-	for i, c := range h.Counts {
+	for i := lo; i <= hi; i++ {
+		c := h.Counts[i]
 		if c == 0 {
 			continue
 		}
-		if g := int64(i) / width; g != last {
+		a, b := max(h.lower(i), h.Min), min(h.upper(i), h.Max)
+		if g := i / group; g != last {
 			flush()
 			last = g
+			first = a
 		}
-		sumV += float64(h.Lo+int64(i)) * float64(c)
+		lastVal = b
+		sumV += (float64(a) + float64(b-a)/2) * float64(c)
 		sumC += float64(c)
 	}
 	flush()
@@ -182,7 +229,7 @@ func (h *Hist) support(maxPoints int) (xs, ws []float64, width int64) {
 		xs = append(xs, float64(h.Max))
 		ws = append(ws, float64(h.Over))
 	}
-	return xs, ws, width
+	return xs, ws, resolution
 }
 
 // Bins are coarse, fixed bins over an integer quantity: bin i holds values in
@@ -199,21 +246,21 @@ func (b Bins) Index(v int64) int {
 	return max(i-1, 0)
 }
 
-// Count returns the coarse counts of h. Values ascend along the counters, so the
-// bin index only moves forward; only counters between h's extremes are read.
+// Count returns the coarse counts of h, each counter going to the bin of its
+// smallest value. Values ascend along the counters, so the bin index only moves
+// forward; only counters between h's extremes are read.
 func (b Bins) Count(h *Hist) []int64 {
 	out := make([]int64, len(b.Edges))
 	out[0] += h.Under
 	out[len(out)-1] += h.Over
-	if h.N == 0 {
-		return out
-	}
-	lo := max(h.Min-h.Lo, 0)
-	hi := min(h.Max-h.Lo, int64(len(h.Counts))-1)
+	lo, hi := h.span()
 	bin := -1
 	next := int64(math.MinInt64) // first value of the next bin
 	for i := lo; i <= hi; i++ {
-		v := h.Lo + i
+		if h.Counts[i] == 0 {
+			continue
+		}
+		v := h.lower(i)
 		if bin < 0 || v >= next {
 			bin = b.Index(v)
 			next = math.MaxInt64

@@ -52,3 +52,44 @@ func TestBins(t *testing.T) {
 		t.Errorf("time bin edges %v", e)
 	}
 }
+
+func TestWideHistLayout(t *testing.T) {
+	h := newWideHist(0, 3_600_000, 4096)
+	// Counters tile the values without gap or overlap, and above the exact range each
+	// is at most 1/64 of its smallest value wide.
+	prev := int64(-1)
+	for i := range int64(len(h.Counts)) {
+		lo, hi := h.lower(i), h.upper(i)
+		if lo != prev+1 || hi < lo {
+			t.Fatalf("counter %d holds [%d, %d] after %d", i, lo, hi, prev)
+		}
+		if w := hi - lo + 1; (i < 4096 && w != 1) || (i >= 4096 && w*64 > lo) {
+			t.Fatalf("counter %d [%d, %d] too wide", i, lo, hi)
+		}
+		for _, v := range []int64{lo, hi, lo + (hi-lo)/2} {
+			if h.index(v) != i {
+				t.Fatalf("index(%d) = %d, want %d", v, h.index(v), i)
+			}
+		}
+		prev = hi
+	}
+	if h.Hi() < 3_600_000 || len(h.Counts) > 5000 {
+		t.Errorf("Hi %d with %d counters", h.Hi(), len(h.Counts))
+	}
+	// A quantile in a wide counter is within its width (1/64) of the true value.
+	for _, v := range []int64{10_000, 123_456, 2_999_999} {
+		g := newWideHist(0, 3_600_000, 4096)
+		g.Add(v)
+		g.Add(v + 1)
+		q, exact := g.Quantile(0.5)
+		if exact || q < v-v/64 || q > v+v/64 {
+			t.Errorf("Quantile of {%d, %d} = %d (exact %v)", v, v+1, q, exact)
+		}
+	}
+	h.Add(5)
+	h.Add(4_000_000)
+	h.Add(-3)
+	if h.Counts[5] != 1 || h.Over != 1 || h.Under != 1 || h.N != 3 {
+		t.Errorf("bookkeeping %+v", summary(h))
+	}
+}

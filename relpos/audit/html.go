@@ -87,7 +87,12 @@ type htmlData struct {
 	Overlay     []htmlChart
 	Comparisons []htmlComparison
 	Files       []htmlFile
+	FilesLeft   int
 }
+
+// maxHTMLFiles caps the rows of the page's file table; every file is in the JSON
+// and text reports, and every outlier is listed on the page.
+const maxHTMLFiles = 2000
 
 // WriteHTML writes the report as one self-contained HTML page: styles inline,
 // charts inline as SVG, nothing loaded from the network, readable on a laptop screen
@@ -147,6 +152,10 @@ func (r *Report) WriteHTML(w io.Writer) error {
 		data.Comparisons = append(data.Comparisons, hc)
 	}
 	for i := range r.Files {
+		if i == maxHTMLFiles {
+			data.FilesLeft = len(r.Files) - maxHTMLFiles
+			break
+		}
 		f := &r.Files[i]
 		hf := htmlFile{F: f, PPQ: fmt.Sprint(f.PPQ), Notes: f.Notes, Tempo: bpm(f.Tempo.MinBPM)}
 		if f.SMPTE {

@@ -8,9 +8,16 @@ import (
 
 // Ranges of the pair histograms.
 const (
-	maxPairDT = 300_000 // in the stream's time unit (ms, or grid steps): five minutes
+	maxPairDT = 3_600_000 // in the stream's time unit (ms, or grid steps): an hour of ms
 	maxPairDP = 127
 )
+
+// exactBelow is the range of exact counters of the wide histograms: every ms up
+// to about 4 s, then 64 counters per octave.
+const exactBelow = 4096
+
+// newDTHist returns the histogram of pairwise |Δt|.
+func newDTHist() *Hist { return newWideHist(0, maxPairDT, exactBelow) }
 
 // pairCounter counts the time and pitch offsets of every pair of distinct tokens
 // (i < j) inside a window, exactly and without enumerating the pairs one by one:
@@ -85,14 +92,18 @@ func (pc *pairCounter) window(toks []tokenize.Token, dt, dp *Hist) {
 }
 
 // addTimePairs counts, for distinct sorted times with multiplicities, every pair of
-// tokens by the difference of their times.
+// tokens by the difference of their times into h, whose Lo must be 0.
 func addTimePairs(times []int32, counts []int64, h *Hist) {
 	var over int64
 	var n int64
 	var sum int64
 	maxD := int64(-1)
 	cs := h.Counts
-	hi := int64(len(cs)) - 1 + h.Lo
+	hi := h.Hi()
+	exact := h.Exact // h.Lo is 0: a counter index is the value below exact
+	if exact == 0 {
+		exact = int64(len(cs))
+	}
 	for k, tk := range times {
 		c := counts[k]
 		if c > 1 {
@@ -102,10 +113,13 @@ func addTimePairs(times []int32, counts []int64, h *Hist) {
 		for l := k + 1; l < len(times); l++ {
 			d := int64(times[l]) - int64(tk)
 			w := c * counts[l]
-			if d > hi {
+			switch {
+			case d < exact:
+				cs[d] += w
+			case d > hi:
 				over += w
-			} else {
-				cs[d-h.Lo] += w
+			default:
+				cs[h.index(d)] += w
 			}
 			n += w
 			sum += d * w

@@ -65,7 +65,7 @@ func TestPairCounterWorkedExample(t *testing.T) {
 	toks := []tokenize.Token{
 		{Time: 0, Pitch: 60, Inst: 0}, {Time: 0, Pitch: 64, Inst: 0}, {Time: 500, Pitch: 67, Inst: 0},
 	}
-	dt, dp := newHist(0, maxPairDT), newHist(-maxPairDP, maxPairDP)
+	dt, dp := newDTHist(), newHist(-maxPairDP, maxPairDP)
 	var pc pairCounter
 	pc.window(toks, dt, dp)
 	if dt.N != 3 || dt.Counts[0] != 1 || dt.Counts[500] != 2 {
@@ -92,7 +92,7 @@ func summary(h *Hist) map[int64]int64 {
 func BenchmarkPairCounter(b *testing.B) {
 	r := rand.New(rand.NewPCG(3, 4))
 	toks := randomWindow(r, 2048, true)
-	dt, dp := newHist(0, maxPairDT), newHist(-maxPairDP, maxPairDP)
+	dt, dp := newDTHist(), newHist(-maxPairDP, maxPairDP)
 	b.Run("grouped", func(b *testing.B) {
 		b.ReportAllocs()
 		var pc pairCounter

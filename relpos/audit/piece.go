@@ -10,7 +10,7 @@ import (
 // Ranges of the exact histograms. Values outside are counted in the tails, with
 // their extremes kept.
 const (
-	maxIntervalMS = 60_000 // inter-onset intervals and durations, ms
+	maxIntervalMS = 3_600_000 // inter-onset intervals and durations, ms: an hour
 	maxBPM        = 1_000
 	maxPolyphony  = 128
 )
@@ -32,8 +32,8 @@ type noteStats struct {
 
 func newNoteStats() *noteStats {
 	return &noteStats{
-		IOI:       newHist(0, maxIntervalMS),
-		Duration:  newHist(0, maxIntervalMS),
+		IOI:       newWideHist(0, maxIntervalMS, exactBelow),
+		Duration:  newWideHist(0, maxIntervalMS, exactBelow),
 		Velocity:  newHist(0, 127),
 		Polyphony: newHist(0, maxPolyphony),
 		Tempo:     newHist(0, maxBPM),
