@@ -48,6 +48,9 @@ func BenchmarkEncode(b *testing.B) {
 			e := mustEncoder(b, benchConfigs()[name])
 			var dst []Token
 			tokens := 0
+			runtime.LockOSThread()
+			defer runtime.UnlockOSThread()
+			c0 := threadCPU()
 			b.ReportAllocs()
 			for b.Loop() {
 				tokens = 0
@@ -61,6 +64,7 @@ func BenchmarkEncode(b *testing.B) {
 				}
 			}
 			b.ReportMetric(float64(tokens), "tokens/op")
+			reportCPU(b, c0)
 		})
 	}
 }
@@ -72,6 +76,9 @@ func BenchmarkWindows(b *testing.B) {
 			e := mustEncoder(b, benchConfigs()[name])
 			windows := 0
 			yield := func(Window) error { windows++; return nil }
+			runtime.LockOSThread()
+			defer runtime.UnlockOSThread()
+			c0 := threadCPU()
 			b.ReportAllocs()
 			for b.Loop() {
 				windows = 0
@@ -82,8 +89,36 @@ func BenchmarkWindows(b *testing.B) {
 				}
 			}
 			b.ReportMetric(float64(windows), "windows/op")
+			reportCPU(b, c0)
 		})
 	}
+}
+
+// reportCPU reports the thread CPU time per op since c0.
+func reportCPU(b *testing.B, c0 time.Duration) {
+	if c := threadCPU(); c > 0 {
+		b.ReportMetric(float64(c-c0)/float64(b.N)/1e6, "cpu-ms/op")
+	}
+}
+
+// BenchmarkParse parses the same files, for comparison with the two above.
+func BenchmarkParse(b *testing.B) {
+	data, _ := benchInput(b)
+	if data == nil {
+		b.Skip("no reference files to parse")
+	}
+	runtime.LockOSThread()
+	defer runtime.UnlockOSThread()
+	c0 := threadCPU()
+	b.ReportAllocs()
+	for b.Loop() {
+		for _, d := range data {
+			if _, err := ingest.Parse("bench.mid", d, ingest.DefaultParseOptions()); err != nil {
+				b.Fatal(err)
+			}
+		}
+	}
+	reportCPU(b, c0)
 }
 
 // BenchmarkWindowsVsParse measures, in one run on the same files, ingest.Parse and

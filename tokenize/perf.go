@@ -45,13 +45,13 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS) // seconds to steps
 	group := e.pnotes[:0]
+	var pn pnote
 	for i := range p.Notes {
-		pn, ok, err := e.quantize(&p.Notes[i], i, v.Transpose, scale, &st)
-		if err != nil {
-			return dst, st, err
-		}
-		if !ok {
+		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, &pn) {
+		case qSkip:
 			continue
+		case qBad:
+			return dst, st, e.quantizeError(&p.Notes[i], i)
 		}
 		if len(group) > 0 && pn.on != group[0].on {
 			if pn.on < group[0].on {
@@ -79,12 +79,12 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS)
 	notes := e.pnotes[:0]
+	var pn pnote
 	for i := range p.Notes {
-		pn, ok, err := e.quantize(&p.Notes[i], i, v.Transpose, scale, &st)
-		if err != nil {
-			return dst, st, err
-		}
-		if ok {
+		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, &pn) {
+		case qBad:
+			return dst, st, e.quantizeError(&p.Notes[i], i)
+		case qOK:
 			notes = append(notes, pn)
 		}
 	}
@@ -102,33 +102,48 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	return e.finishPerformance(&o, notes[g:], &st)
 }
 
-// quantize turns one note into shift steps; ok is false for a note left out.
-func (e *Encoder) quantize(n *ingest.Note, i, transpose int, scale float64, st *Stats) (pnote, bool, error) {
-	if n.Drum && e.cfg.Drums == DrumsDrop {
-		st.DrumsDropped++
-		return pnote{}, false, nil
+// Outcomes of quantize.
+const (
+	qOK   = iota // the note is in *out
+	qSkip        // left out (drums dropped, transposed out of range), counted in Stats
+	qBad         // invalid times: quantizeError says why
+)
+
+// quantize turns one note into shift steps in *out.
+func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Stats, out *pnote) int {
+	if n.Drum {
+		if e.cfg.Drums == DrumsDrop {
+			st.DrumsDropped++
+			return qSkip
+		}
+		on := n.Start * scale
+		if !(on >= 0) || !(n.End >= n.Start) || n.End*scale*float64(e.cfg.ShiftMS) > maxMS {
+			return qBad
+		}
+		s := int64(math.Round(on))
+		*out = pnote{on: s, off: s, pitch: n.Pitch, vel: e.vocab.velBins[n.Velocity&127], drum: true, inst: InstDrums}
+		return qOK
 	}
-	pitch := int(n.Pitch)
-	if !n.Drum {
-		pitch += transpose
-	}
+	pitch := int(n.Pitch) + transpose
 	if pitch < 0 || pitch > 127 {
 		st.OutOfRange++
-		return pnote{}, false, nil
+		return qSkip
 	}
 	on, off := n.Start*scale, n.End*scale
 	if !(on >= 0) || !(off >= on) || off*float64(e.cfg.ShiftMS) > maxMS {
-		if off*float64(e.cfg.ShiftMS) > maxMS {
-			return pnote{}, false, fmt.Errorf("encode: %w: note %d ends at %.0f s", ErrTooLong, i, n.End)
-		}
-		return pnote{}, false, fmt.Errorf("encode: %w: note %d has times %v..%v s", ErrBadPiece, i, n.Start, n.End)
+		return qBad
 	}
-	pn := pnote{on: int64(math.Round(on)), off: int64(math.Round(off)), pitch: uint8(pitch),
-		vel: e.vocab.velBins[n.Velocity&127], drum: n.Drum, inst: int16(n.Program)}
-	if n.Drum {
-		pn.off, pn.inst = pn.on, InstDrums
+	*out = pnote{on: int64(math.Round(on)), off: int64(math.Round(off)), pitch: uint8(pitch),
+		vel: e.vocab.velBins[n.Velocity&127], inst: int16(n.Program)}
+	return qOK
+}
+
+// quantizeError describes why note i could not be quantized.
+func (e *Encoder) quantizeError(n *ingest.Note, i int) error {
+	if n.End*1000 > maxMS/4 { // stretch is at most 4
+		return fmt.Errorf("encode: %w: note %d ends at %.0f s", ErrTooLong, i, n.End)
 	}
-	return pn, true, nil
+	return fmt.Errorf("encode: %w: note %d has times %v..%v s", ErrBadPiece, i, n.Start, n.End)
 }
 
 // finishPerformance emits the last group, the remaining note-offs and the end token.
@@ -191,17 +206,18 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 		return errStreamTooLong()
 	}
 	ms := int32(o.cur * o.shiftMS)
+	d, vel := o.dst, o.curVel // locals stay in registers
 	for _, key := range kept {
 		n := &group[uint32(key)]
-		if int(n.vel) != o.curVel {
-			o.curVel = int(n.vel)
-			o.dst = append(o.dst, Token{ID: voc.velBase + int32(n.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
+		if int(n.vel) != vel {
+			vel = int(n.vel)
+			d = append(d, Token{ID: voc.velBase + int32(n.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
 		}
 		id := voc.onBase + int32(n.pitch)
 		if n.drum {
 			id = voc.hitBase + int32(n.pitch)
 		}
-		o.dst = append(o.dst, Token{ID: id, Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+		d = append(d, Token{ID: id, Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
 	}
 	for _, key := range kept {
 		n := &group[uint32(key)]
@@ -210,11 +226,12 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 		}
 		o.keyOff[n.pitch] = n.off
 		if n.off == n.on {
-			o.dst = append(o.dst, Token{ID: voc.offBase + int32(n.pitch), Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+			d = append(d, Token{ID: voc.offBase + int32(n.pitch), Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
 		} else {
 			o.heap = pushOff(o.heap, pendingOff{step: n.off, pitch: n.pitch, inst: n.inst})
 		}
 	}
+	o.dst, o.curVel = d, vel
 	if len(o.dst)-o.start > MaxStreamTokens {
 		return errStreamTooLong()
 	}
@@ -264,16 +281,18 @@ func (o *perfOut) advance(to int64) bool {
 	if gap <= 0 {
 		return true
 	}
-	if (len(o.dst)-o.start)+int(gap/o.maxSteps) > MaxStreamTokens {
+	if gap > o.maxSteps && (len(o.dst)-o.start)+int(gap/o.maxSteps) > MaxStreamTokens {
 		return false
 	}
+	d := o.dst
 	for gap > 0 {
 		n := min(gap, o.maxSteps)
 		o.cur += n
 		gap -= n
 		ms := int32(o.cur * o.shiftMS)
-		o.dst = append(o.dst, Token{ID: o.shiftBase + int32(n) - 1, Time: ms, MS: ms, Pitch: -1, Inst: -1})
+		d = append(d, Token{ID: o.shiftBase + int32(n) - 1, Time: ms, MS: ms, Pitch: -1, Inst: -1})
 	}
+	o.dst = d
 	return true
 }
 
