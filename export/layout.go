@@ -93,6 +93,11 @@ func claimFolder(dir string, mk marker, overwrite bool) error {
 	}
 	data, err := os.ReadFile(filepath.Join(dir, MarkerName))
 	if err != nil {
+		if onlyMarkerTemp(dir) {
+			// A run killed while writing its marker, the first file it writes into
+			// an empty folder: the folder is ours and nothing else is in it.
+			return nil
+		}
 		return fmt.Errorf("%w: %s is not empty and holds no relshard dataset; choose an empty or new folder", ErrFolderInUse, dir)
 	}
 	var old marker
@@ -109,6 +114,13 @@ func claimFolder(dir string, mk marker, overwrite bool) error {
 	// An unfinished run has no manifest listing its files: remove exactly the
 	// files that its naming scheme could have made.
 	return removeShardFiles(dir, nil)
+}
+
+// onlyMarkerTemp reports whether dir holds nothing but the temporary file of the run
+// marker.
+func onlyMarkerTemp(dir string) bool {
+	entries, err := os.ReadDir(dir)
+	return err == nil && len(entries) == 1 && entries[0].Name() == MarkerName+TempSuffix && entries[0].Type().IsRegular()
 }
 
 // removeDataset removes the files a manifest lists, its temporaries and the manifest.
