@@ -19,7 +19,7 @@ import (
 )
 
 // maxTokensFile caps the JSON file relshard decode reads.
-const maxTokensFile = 1 << 30
+const maxTokensFile = 256 << 20
 
 // decodeOptions are the flags and argument of relshard decode.
 type decodeOptions struct {
@@ -60,12 +60,12 @@ func readTokens(path string, in io.Reader) (ids []int32, labels []string, cfg *t
 	if len(data) > maxTokensFile {
 		return nil, nil, nil, fmt.Errorf("%s: over %d MiB of JSON", path, maxTokensFile>>20)
 	}
-	var toks []tokenJSON
-	switch first := firstByte(data); first {
+	var raw []json.RawMessage
+	switch firstByte(data) {
 	case '{':
 		var s struct {
-			Config *tokenize.Config `json:"config"`
-			Tokens *[]tokenJSON     `json:"tokens"`
+			Config *tokenize.Config   `json:"config"`
+			Tokens *[]json.RawMessage `json:"tokens"`
 		}
 		if err := json.Unmarshal(data, &s); err != nil {
 			return nil, nil, nil, fmt.Errorf("%s: %w", path, jsonError(data, err))
@@ -73,25 +73,25 @@ func readTokens(path string, in io.Reader) (ids []int32, labels []string, cfg *t
 		if s.Tokens == nil {
 			return nil, nil, nil, fmt.Errorf("%s: no \"tokens\" array in the object", path)
 		}
-		toks, cfg = *s.Tokens, s.Config
+		raw, cfg = *s.Tokens, s.Config
 	case '[':
-		var raw []json.RawMessage
 		if err := json.Unmarshal(data, &raw); err != nil {
 			return nil, nil, nil, fmt.Errorf("%s: %w", path, jsonError(data, err))
 		}
-		toks = make([]tokenJSON, len(raw))
-		for i, r := range raw {
-			if firstByte(r) == '{' {
-				err = json.Unmarshal(r, &toks[i])
-			} else {
-				err = json.Unmarshal(r, &toks[i].ID)
-			}
-			if err != nil {
-				return nil, nil, nil, fmt.Errorf("%s: token %d: %w", path, i, err)
-			}
-		}
 	default:
 		return nil, nil, nil, fmt.Errorf("%s: want a JSON object with \"tokens\" or an array of ids", path)
+	}
+	// Each token is an id or an object with an id (and optionally its label).
+	toks := make([]tokenJSON, len(raw))
+	for i, r := range raw {
+		if firstByte(r) == '{' {
+			err = json.Unmarshal(r, &toks[i])
+		} else {
+			err = json.Unmarshal(r, &toks[i].ID)
+		}
+		if err != nil {
+			return nil, nil, nil, fmt.Errorf("%s: token %d: %w", path, i, err)
+		}
 	}
 	ids = make([]int32, len(toks))
 	labels = make([]string, len(toks))
@@ -130,6 +130,11 @@ func runDecode(_ context.Context, cmd *cobra.Command, o *decodeOptions, s *strea
 	ids, labels, fileCfg, err := readTokens(o.in, s.In)
 	if err != nil {
 		return &exitError{code: exitFailed, err: err}
+	}
+	if fileCfg != nil {
+		if err := fileCfg.Validate(); err != nil {
+			return &exitError{code: exitFailed, err: fmt.Errorf("%s: config: %w", o.in, err)}
+		}
 	}
 	cfg, err := o.tok.config(cmd, fileCfg)
 	if err != nil {

@@ -147,6 +147,7 @@ func TestDecodeInputs(t *testing.T) {
 		{"not JSON", "{", "", "unexpected end of JSON input", exitFailed},
 		{"object without tokens", `{"file": "x"}`, "", `no "tokens" array`, exitFailed},
 		{"bad encoding", "[1]", "--encoding remi", `encoding "remi"`, exitUsage},
+		{"bad config in the file", `{"config": {"encoding": "x"}, "tokens": [1]}`, "", `config: tokenize config: encoding "x"`, exitFailed},
 	}
 	for _, tc := range bad {
 		p := filepath.Join(dir, strings.ReplaceAll(tc.name, " ", "_")+".json")
