@@ -8,7 +8,8 @@ import (
 	"strconv"
 )
 
-// compare fills the distances between every pair of datasets, by name order.
+// compare fills the distances between every pair of datasets with pairs, by name
+// order.
 func (r *Report) compare() {
 	for i, a := range r.Datasets {
 		for _, b := range r.Datasets[i+1:] {
@@ -17,12 +18,13 @@ func (r *Report) compare() {
 				if kind == "dp" {
 					da, db = a.PairDP, b.PairDP
 				}
-				c := Comparison{Kind: kind, A: a.Name, B: b.Name, JSD: JSONFloat(math.NaN()), Wasserstein: JSONFloat(math.NaN())}
-				if da.N > 0 && db.N > 0 {
-					c.JSD = JSONFloat(JensenShannon(da.Bins, db.Bins))
-					w, res := histWasserstein(da.h, db.h)
-					c.Wasserstein, c.Resolution = JSONFloat(w), res
+				if da.N == 0 || db.N == 0 {
+					continue // nothing to compare with an empty side
 				}
+				c := Comparison{Kind: kind, A: a.Name, B: b.Name}
+				c.JSD = JSONFloat(JensenShannon(da.Bins, db.Bins))
+				w, res := histWasserstein(da.h, db.h)
+				c.Wasserstein, c.Resolution = JSONFloat(w), res
 				r.Comparisons = append(r.Comparisons, c)
 			}
 		}

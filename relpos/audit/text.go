@@ -124,7 +124,7 @@ func (r *Report) WriteText(w io.Writer) error {
 		ew.printf("none\n")
 	}
 	for _, o := range r.Outliers {
-		ew.printf("%s/%s", o.Dataset, o.Path)
+		ew.printf("%s (dataset %s)", o.Path, o.Dataset)
 		if o.Piece != 0 {
 			ew.printf(" (piece %d)", o.Piece)
 		}
@@ -137,7 +137,7 @@ func (r *Report) WriteText(w io.Writer) error {
 	if len(r.Skipped) > 0 {
 		ew.section(fmt.Sprintf("Skipped files (%d)", len(r.Skipped)))
 		for _, f := range r.Skipped {
-			ew.printf("%s/%s: %s\n", f.Dataset, f.Path, f.Reason)
+			ew.printf("%s\n", skipLine(f))
 		}
 	}
 
@@ -166,6 +166,15 @@ func (r *Report) WriteText(w io.Writer) error {
 	}
 	ew.flush(tw)
 	return ew.err
+}
+
+// skipLine says which file was skipped and why, naming the file once (ingest's
+// reasons usually start with the path).
+func skipLine(f Skipped) string {
+	if f.Path != "" && strings.HasPrefix(f.Reason, f.Path) {
+		return f.Reason
+	}
+	return f.Path + ": " + f.Reason
 }
 
 // errWriter keeps the first write error so tables can be written without checks.
