@@ -80,13 +80,27 @@ func ReadManifest(dir string) (*Manifest, error) {
 	if err != nil {
 		return nil, err
 	}
-	var m Manifest
-	dec := json.NewDecoder(bytes.NewReader(data))
-	if err := dec.Decode(&m); err != nil {
+	m, err := DecodeManifest(data)
+	if err != nil {
 		return nil, fmt.Errorf("read %s: %w", filepath.Join(dir, ManifestName), err)
 	}
+	return m, nil
+}
+
+// DecodeManifest parses a manifest. Unknown keys are errors (a manifest from a
+// newer schema is not silently half-read).
+func DecodeManifest(data []byte) (*Manifest, error) {
+	var m Manifest
+	dec := json.NewDecoder(bytes.NewReader(data))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&m); err != nil {
+		return nil, fmt.Errorf("decode manifest: %w", err)
+	}
 	if m.Format != ManifestKind {
-		return nil, fmt.Errorf("read %s: format %q, want %q", filepath.Join(dir, ManifestName), m.Format, ManifestKind)
+		return nil, fmt.Errorf("decode manifest: format %q, want %q", m.Format, ManifestKind)
+	}
+	if dec.More() {
+		return nil, fmt.Errorf("decode manifest: data after the JSON object")
 	}
 	return &m, nil
 }

@@ -19,7 +19,9 @@ var (
 
 // testCorpus writes the generated demo corpus (with a few damaged files) once per
 // test binary.
-func testCorpus(t *testing.T) []ingest.Source {
+func testCorpus(t *testing.T) []ingest.Source { return testCorpusB(t) }
+
+func testCorpusB(t testing.TB) []ingest.Source {
 	t.Helper()
 	corpusOnce.Do(func() {
 		corpusDir, corpusErr = os.MkdirTemp("", "relshard-export-corpus-")

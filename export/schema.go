@@ -8,10 +8,10 @@ package export
 // list<int16>. All four lists of a row have the same length: entry i of each
 // describes token i.
 type Row struct {
-	Tokens []int32 `parquet:"tokens,list"` // vocabulary ids
-	Time   []int32 `parquet:"time,list"`   // each token's time in the unit named by the time_unit metadata
-	Pitch  []int16 `parquet:"pitch,list"`  // MIDI key 0-127, or -1 for tokens without a pitch
-	Inst   []int16 `parquet:"inst,list"`   // -1 none, 0-127 General MIDI program, 128 drums
+	Tokens []int32 `parquet:"tokens,list"`                        // vocabulary ids
+	Time   []int32 `parquet:"time,list" parquet-element:",delta"` // each token's time in the unit named by the time_unit metadata
+	Pitch  []int16 `parquet:"pitch,list"`                         // MIDI key 0-127, or -1 for tokens without a pitch
+	Inst   []int16 `parquet:"inst,list"`                          // -1 none, 0-127 General MIDI program, 128 drums
 
 	Piece       string  `parquet:"piece,dict"`        // stable piece id: dataset, source and piece index within the file
 	Dataset     string  `parquet:"dataset,dict"`      // dataset name of the input
