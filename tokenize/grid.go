@@ -114,6 +114,10 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	}
 	e.bars = meters
 
+	// Every bar costs a token, and no bar is longer than maxPos steps.
+	if len(notes) > 0 && notes[len(notes)-1].step/int64(voc.maxPos) > MaxStreamTokens {
+		return dst, st, errStreamTooLong()
+	}
 	start := len(dst)
 	dst = append(dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
 	meterID := voc.meterID[[2]int{4, 4}]
