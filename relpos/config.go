@@ -68,7 +68,12 @@ type Config struct {
 	BudgetWidths KindWidths `yaml:"budget_widths" json:"budget_widths"`
 	// Sample, when in (0, 1), counts a random share of the pairs instead of all of them,
 	// and every share gets a Wilson confidence interval at Confidence.
-	Sample     float64 `yaml:"sample" json:"sample"`
+	Sample float64 `yaml:"sample" json:"sample"`
+	// ExactUpTo is the largest |Δ| up to which the quantiles of time offsets (and of token
+	// distance within an instrument class) are exact: those offsets are counted one by
+	// one, at a cost of the pairs that close in time. Above it a quantile is bracketed
+	// within 1/12 of its value. Default 32.
+	ExactUpTo  int     `yaml:"exact_up_to" json:"exact_up_to"`
 	Seed       uint64  `yaml:"seed" json:"seed"`
 	Confidence float64 `yaml:"confidence" json:"confidence"`
 }
@@ -97,6 +102,7 @@ func DefaultConfig() Config {
 			Pitch:    []int{1, 2, 3, 4, 6, 12},
 		},
 		Confidence: 0.95,
+		ExactUpTo:  DefaultExact,
 	}
 }
 
@@ -144,6 +150,9 @@ func (c Config) Resolved() Config {
 	if c.Confidence == 0 {
 		c.Confidence = d.Confidence
 	}
+	if c.ExactUpTo == 0 {
+		c.ExactUpTo = d.ExactUpTo
+	}
 	return c
 }
 
@@ -182,6 +191,9 @@ func (c Config) Validate() error {
 	}
 	if !(c.Sample >= 0 && c.Sample <= 1) {
 		return fmt.Errorf("relpos config: sample %v outside [0, 1]", c.Sample)
+	}
+	if c.ExactUpTo < 1 || c.ExactUpTo > maxExact {
+		return fmt.Errorf("relpos config: exact_up_to %d outside 1..%d", c.ExactUpTo, maxExact)
 	}
 	if !(c.Confidence > 0 && c.Confidence < 1) {
 		return fmt.Errorf("relpos config: confidence %v outside (0, 1)", c.Confidence)

@@ -40,6 +40,8 @@ type Counter struct {
 	// mags are the magnitudes a at which the number of pairs with |Δ| ≤ a is known on
 	// pointer-counted kinds: every a ≤ exactMags, then steps of a/12.
 	mags []int64
+	// exact is Config.Exact: magnitudes up to it are counted one by one (stream.small).
+	exact int64
 	// bounds are the time magnitudes binned when sampling: mags and budget magnitudes.
 	bounds []int64
 
@@ -53,18 +55,22 @@ type Counter struct {
 	gcnt       []int64
 }
 
-// exactMags is the largest magnitude up to which quantiles of pointer-counted kinds are
-// exact; above it they are known within a step of a/12 (≤ 8.4 %).
-const exactMags = 32
+// DefaultExact is the default Config.Exact: the largest magnitude up to which quantiles
+// of pointer-counted kinds are exact; above it they are known within a step of a/12
+// (≤ 8.4 %).
+const DefaultExact = 32
 
-func quantileMags() []int64 {
+// maxExact bounds Config.Exact.
+const maxExact = 1 << 16
+
+func quantileMags(exactMags int64) []int64 {
 	var m []int64
 	for a := int64(0); a <= math.MaxInt32; {
 		m = append(m, a)
 		if a < exactMags {
 			a++
 		} else {
-			a += a / 12
+			a += max(1, a/12)
 		}
 	}
 	return m
@@ -76,7 +82,8 @@ func NewCounter(cfg Config) (*Counter, error) {
 		return nil, err
 	}
 	cfg = cfg.Resolved()
-	c := &Counter{cfg: cfg, mags: quantileMags()}
+	exactMags := int64(cfg.ExactUpTo)
+	c := &Counter{cfg: cfg, mags: quantileMags(exactMags), exact: exactMags}
 	for _, k := range Kinds {
 		for _, spec := range cfg.Specs(k) {
 			s, err := spec.Build(direction(k, cfg.Pairs))
@@ -107,8 +114,8 @@ func NewCounter(cfg Config) (*Counter, error) {
 		for _, a := range c.budgetMags(k) {
 			add(-a)
 		}
-		// Offsets in (−exactMags, 0] come from the per-pair walk (stream.small); the
-		// pointers count the rest, from −exactMags down.
+		// Offsets in (−exact, 0] come from the per-pair walk (stream.small); the
+		// pointers count the rest, from −exact down.
 		cuts = append(cuts, -exactMags)
 		keep := cuts[:0]
 		for _, x := range cuts {
@@ -217,7 +224,7 @@ func (c *Counter) initStream(s *stream, sampled bool) {
 		}
 		if c.cuts[k] != nil {
 			s.below[k] = make([]int64, len(c.cuts[k]))
-			s.small[k] = make([]int64, exactMags+1)
+			s.small[k] = make([]int64, c.exact+1)
 		}
 	}
 }
@@ -397,9 +404,9 @@ func (c *Counter) countClass(s *stream, tokens []tokenize.Token, cl Class) {
 // countPointers counts the ordered pairs (i, j) of the non-decreasing values v by
 // their offset v[j] − v[i] < 0 (such pairs have j < i: they are causal pairs, and in
 // bidirectional mode the counts of positive offsets follow by symmetry):
-//   - small[a] += pairs at offset −a for 1 ≤ a ≤ exactMags, walking back from each value
+//   - small[a] += pairs at offset −a for 1 ≤ a ≤ c.exact, walking back from each value
 //     while the offset stays that small;
-//   - below[k] += pairs with offset < cuts[k] (all ≤ −exactMags), with one pointer per
+//   - below[k] += pairs with offset < cuts[k] (all ≤ −c.exact), with one pointer per
 //     cut that moves forward as i does: O(len(v)) per cut.
 //
 // Equal values are grouped first, so both cost O(distinct values) rather than O(len(v)).
@@ -424,7 +431,7 @@ func (c *Counter) countPointers(v, cuts, below, small []int64, maxAbs *int64) {
 	}
 	c.gval, c.gcnt, c.gpre = vals, cnts, pre
 	for g, x := range vals {
-		for h := g - 1; h >= 0 && x-vals[h] <= exactMags; h-- {
+		for h := g - 1; h >= 0 && x-vals[h] <= c.exact; h-- {
 			small[x-vals[h]] += cnts[g] * cnts[h]
 		}
 	}

@@ -78,6 +78,7 @@ func randomConfig(r *rand.Rand) Config {
 	}
 	cfg.Joint = r.IntN(2) == 0
 	cfg.Budget = r.IntN(3) * 33
+	cfg.ExactUpTo = []int{1, 2, 32, 700}[r.IntN(4)]
 	return cfg
 }
 

@@ -69,8 +69,9 @@ type view struct {
 	// pointer counts
 	cuts, below []int64
 	mags        []int64
-	// smallAbove[a] = pairs with −exactMags ≤ Δ ≤ −a, for 1 ≤ a ≤ exactMags+1
+	// smallAbove[a] = pairs with −exact ≤ Δ ≤ −a, for 1 ≤ a ≤ exact+1
 	smallAbove []int64
+	exact      int64
 	// sampling: per-scheme counts; for time, binCum[i] = pairs with |Δ| ≤ mags[i]
 	sc     []SchemeCounts
 	binCum []int64
@@ -114,8 +115,9 @@ func (c *Counter) view(s *stream, k Kind, whole bool) *view {
 		}
 	default:
 		v.cuts, v.below, v.mags = c.cuts[k], s.below[k], c.mags
-		v.smallAbove = make([]int64, exactMags+2)
-		for a := exactMags; a >= 1; a-- {
+		v.exact = c.exact
+		v.smallAbove = make([]int64, c.exact+2)
+		for a := c.exact; a >= 1; a-- {
 			v.smallAbove[a] = v.smallAbove[a+1] + s.small[k][a]
 		}
 	}
@@ -144,9 +146,9 @@ func (v *view) belowAt(x int64) int64 {
 			return v.pairs
 		}
 		return v.pairs - v.belowAt(-x+1)
-	case x > -exactMags:
-		// Δ < x ≤ 0: below −exactMags, or −Δ in [1−x, exactMags]
-		return v.belowAt(-exactMags) + v.smallAbove[1-x]
+	case x > -v.exact:
+		// Δ < x ≤ 0: below −exact, or −Δ in [1−x, exact]
+		return v.belowAt(-v.exact) + v.smallAbove[1-x]
 	}
 	i := sort.Search(len(v.cuts), func(i int) bool { return v.cuts[i] >= x })
 	if i == len(v.cuts) || v.cuts[i] != x {

@@ -20,6 +20,7 @@ type relposFlags struct {
 	instruments, joint  bool
 	targets             []float64
 	budget              int
+	exactUpTo           int
 	sample, confidence  float64
 	seed                uint64
 	report              bool // the report flags are registered
@@ -49,6 +50,7 @@ func (f *relposFlags) addFlags(fs *pflag.FlagSet, schemes, report bool) {
 		fs.Float64SliceVar(&f.targets, "targets", []float64{0.95, 0.99}, "coverage targets of the clip recommendations")
 		fs.IntVar(&f.budget, "budget", 0, "embedding rows: list the (width, clip) pairs that fit")
 	}
+	fs.IntVar(&f.exactUpTo, "exact-up-to", relpos.DefaultExact, "time |Δ| quantiles are exact up to this magnitude, bracketed within 1/12 above (cost: the pairs that close)")
 	fs.Float64Var(&f.sample, "sample", 0, "count this share of the pairs, at random, with confidence intervals (0 = all, exact)")
 	fs.Uint64Var(&f.seed, "seed", 0, "seed of the sampling")
 	fs.Float64Var(&f.confidence, "confidence", 0.95, "confidence level of the sampling intervals")
@@ -95,6 +97,9 @@ func (f *relposFlags) apply(fs *pflag.FlagSet, cfg *relpos.Config) error {
 		}
 		if fs.Changed("budget") {
 			cfg.Budget = f.budget
+		}
+		if fs.Changed("exact-up-to") {
+			cfg.ExactUpTo = f.exactUpTo
 		}
 	}
 	if err := cfg.Validate(); err != nil {
