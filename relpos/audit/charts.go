@@ -258,7 +258,7 @@ func timeHist(name, dataset, what, unit string, h *Hist, schemes []Scheme) *Char
 	if h.Over > 0 {
 		c.Caption += fmt.Sprintf("%.1f%% lie beyond %s %s and are not drawn. ", 100*float64(h.Over)/float64(h.N), thousands(h.Hi()), unit)
 	}
-	ymax = max(ymax*1.08, 1)
+	ymax = max(ymax*1.35, 1) // headroom for the legend
 	p.Y.Min, p.Y.Max = 0, ymax
 	p.X.Min, p.X.Max = 1, edges[len(edges)-1]
 	drawSchemes(p, schemes, 0, ymax, 1, edges[len(edges)-1])
@@ -384,7 +384,7 @@ func pitchHist(name, dataset string, h *Hist, schemes []Scheme) *Chart {
 		c.Caption = fmt.Sprintf("%.2f%% of the pairs lie beyond ±%d semitones and are not drawn. ", 100*float64(outside)/float64(h.N), r)
 	}
 	c.Caption += "Negative Δp: the earlier token (the key) is lower than the later one (the query)."
-	ymax = max(ymax*1.08, 1)
+	ymax = max(ymax*1.35, 1) // headroom for the legend
 	p.Y.Min, p.Y.Max = 0, ymax
 	p.X.Min, p.X.Max = float64(-r)-0.5, float64(r)+0.5
 	drawSchemes(p, schemes, 0, ymax, p.X.Min, p.X.Max)

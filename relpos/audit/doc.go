@@ -18,6 +18,16 @@
 //	if err != nil { ... }
 //	err = rep.WriteHTML(f) // charts inline as SVG, no network access
 //
-// All counts are integers merged in any order, so a report is identical for any
-// worker count.
+// Run scans sources with ingest.Scan; an Auditor takes pieces one at a time
+// (AddRecord, AddPiece, Merge, Report) for callers that already hold them. A config
+// for the same windows as an export comes from the export config's sections:
+//
+//	cfg := audit.DefaultConfig()
+//	cfg.Tokenize, cfg.Relpos, cfg.Scan = ecfg.Tokens, ecfg.Buckets, ecfg.Input.Options()
+//
+// Memory is bounded per dataset and per worker (histograms exact to 4 s, then 64
+// counters per octave up to an hour: a few tens of KB each) and grows with the number
+// of files by about a kilobyte each, the per-file facts the report lists. All counts
+// are integers merged in any order, so a report is byte-identical for any worker
+// count.
 package audit

@@ -158,11 +158,11 @@ func (r *Report) WriteHTML(w io.Writer) error {
 		}
 		f := &r.Files[i]
 		hf := htmlFile{F: f, PPQ: fmt.Sprint(f.PPQ), Notes: f.Notes, Tempo: bpm(f.Tempo.MinBPM)}
-		if f.SMPTE {
-			hf.PPQ = "SMPTE"
-		}
 		if f.Tempo.MaxBPM != f.Tempo.MinBPM {
 			hf.Tempo += "–" + bpm(f.Tempo.MaxBPM)
+		}
+		if f.SMPTE {
+			hf.PPQ, hf.Tempo = "SMPTE", "-" // time is in frames, not beats
 		}
 		data.Files = append(data.Files, hf)
 	}

@@ -92,7 +92,8 @@ func addNotes(p *ingest.Piece, s *noteStats, sc *pieceScratch, rng TempoRange, f
 		}
 		tc.MinBPM = min(tc.MinBPM, b)
 		tc.MaxBPM = max(tc.MaxBPM, b)
-		if b < rng.MinBPM || b > rng.MaxBPM {
+		// SMPTE time is in frames: tempo events do not move notes, so none is flagged.
+		if (b < rng.MinBPM || b > rng.MaxBPM) && p.SMPTEFPS == 0 {
 			tc.OutOfRange++
 		}
 	}

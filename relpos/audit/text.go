@@ -161,6 +161,9 @@ func (r *Report) WriteText(w io.Writer) error {
 		if f.Tempo.OutOfRange > 0 {
 			tempo += " (!)"
 		}
+		if f.SMPTE {
+			tempo = "-" // time is in frames, not beats
+		}
 		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", f.Dataset, f.Path, f.Piece, ppq, thousands(int64(f.Notes)),
 			f.Grid.Label, pct(f.Grid.Share), tempo, meter, pct(f.DrumShare), num(float64(f.DTDivergence), 3), num(float64(f.DPDivergence), 3))
 	}
