@@ -203,8 +203,21 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error, inPlace bo
 	start, idx := 0, 0
 	for start < n {
 		if grid {
+			kinds := e.vocab.kinds
 			for ; at < start; at++ {
-				e.track(&st, s[at])
+				switch kinds[s[at].ID] {
+				case KindBar:
+					st.bar = s[at]
+					st.pos = Token{}
+				case KindMeter:
+					st.meter = s[at]
+				case KindTempo:
+					st.tempo = s[at]
+				case KindPosition:
+					st.pos = s[at]
+				case KindInst:
+					st.inst = s[at]
+				}
 			}
 		} else if start > 0 {
 			e.lastVelocity(&st, s, start)
@@ -274,25 +287,6 @@ func (e *Encoder) lastVelocity(st *cutState, s []Token, start int) {
 			st.vel, st.velAt = s[i], i
 			return
 		}
-	}
-}
-
-func (e *Encoder) track(st *cutState, t Token) {
-	st.prevTime, st.prevMS = t.Time, t.MS
-	switch e.vocab.kinds[t.ID] {
-	case KindVelocity:
-		st.vel = t
-	case KindBar:
-		st.bar = t
-		st.pos = Token{}
-	case KindMeter:
-		st.meter = t
-	case KindTempo:
-		st.tempo = t
-	case KindPosition:
-		st.pos = t
-	case KindInst:
-		st.inst = t
 	}
 }
 

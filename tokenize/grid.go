@@ -9,13 +9,30 @@ import (
 	"github.com/relshard/relshard/ingest"
 )
 
-// gnote is one note on the grid.
+// gnote is one note on the grid: its onset step and, packed in key so that notes
+// of one onset sort by a single integer compare, its instrument, key, duration and
+// velocity bin.
 type gnote struct {
-	step  int64
-	dur   int32
-	pitch uint8
-	vel   uint8 // bin
-	inst  int16 // family*8 or InstDrums
+	step int64
+	key  uint64
+}
+
+// gridKey packs a grid note: family (0-15, 16 for drums), key, duration, velocity.
+func gridKey(inst int16, pitch uint8, dur int32, vel uint8) uint64 {
+	f := uint64(inst / 8)
+	if inst == InstDrums {
+		f = 16
+	}
+	return f<<40 | uint64(pitch)<<32 | uint64(uint32(dur))<<8 | uint64(vel)
+}
+
+// unpackGrid undoes gridKey.
+func unpackGrid(k uint64) (inst int16, pitch uint8, dur int32, vel uint8) {
+	inst = int16(k>>40) * 8
+	if k>>40 == 16 {
+		inst = InstDrums
+	}
+	return inst, uint8(k >> 32), int32(uint32(k) >> 8), uint8(k)
 }
 
 // barInfo is one meter change on the grid.
@@ -90,10 +107,11 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			d = maxDur
 			st.Clipped++
 		}
-		g := gnote{step: s, dur: int32(d), pitch: uint8(pitch), vel: uint8(voc.velBin(n.Velocity)), inst: int16(n.Program / 8 * 8)}
+		inst := int16(n.Program / 8 * 8)
 		if n.Drum {
-			g.inst = InstDrums
+			inst = InstDrums
 		}
+		g := gnote{step: s, key: gridKey(inst, uint8(pitch), int32(d), voc.velBins[n.Velocity&127])}
 		if len(notes) > 0 && g.step < notes[len(notes)-1].step {
 			sorted = false
 		}
@@ -166,19 +184,23 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			for h < len(notes) && notes[h].step == s {
 				h++
 			}
-			group := notes[ni:h]
+			keys := e.keys[:0]
+			for _, g := range notes[ni:h] {
+				keys = append(keys, g.key)
+			}
 			ni = h
-			sortGridGroup(group)
-			for gi := range group {
-				n := &group[gi]
-				if n.inst != curInst {
-					dst = append(dst, Token{ID: instID(voc, n.inst), Time: t, MS: ms, Pitch: -1, Inst: n.inst})
-					curInst = n.inst
+			sortKeys(keys)
+			e.keys = keys
+			for _, k := range keys {
+				inst, pitch, dur, vel := unpackGrid(k)
+				if inst != curInst {
+					dst = append(dst, Token{ID: instID(voc, inst), Time: t, MS: ms, Pitch: -1, Inst: inst})
+					curInst = inst
 				}
 				dst = append(dst,
-					Token{ID: voc.pitchBase + int32(n.pitch), Time: t, MS: ms, Pitch: int16(n.pitch), Inst: n.inst},
-					Token{ID: voc.durBase + n.dur - 1, Time: t, MS: ms, Pitch: -1, Inst: n.inst},
-					Token{ID: voc.velBase + int32(n.vel), Time: t, MS: ms, Pitch: -1, Inst: n.inst})
+					Token{ID: voc.pitchBase + int32(pitch), Time: t, MS: ms, Pitch: int16(pitch), Inst: inst},
+					Token{ID: voc.durBase + dur - 1, Time: t, MS: ms, Pitch: -1, Inst: inst},
+					Token{ID: voc.velBase + int32(vel), Time: t, MS: ms, Pitch: -1, Inst: inst})
 			}
 		}
 		barStart = barEnd
@@ -190,45 +212,4 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	dst = append(dst, Token{ID: EndID, Time: last.Time, MS: last.MS, Pitch: -1, Inst: -1})
 	st.Tokens = len(dst) - start
 	return dst, st, nil
-}
-
-func gridLess(a, b *gnote) bool {
-	if a.inst != b.inst {
-		return a.inst < b.inst
-	}
-	if a.pitch != b.pitch {
-		return a.pitch < b.pitch
-	}
-	if a.dur != b.dur {
-		return a.dur < b.dur
-	}
-	return a.vel < b.vel
-}
-
-// sortGridGroup orders the notes of one onset by instrument, key, duration, velocity.
-func sortGridGroup(g []gnote) {
-	i := 1
-	for i < len(g) && !gridLess(&g[i], &g[i-1]) {
-		i++
-	}
-	if i >= len(g) {
-		return
-	}
-	if len(g) > smallSort {
-		slices.SortStableFunc(g, func(a, b gnote) int {
-			if gridLess(&a, &b) {
-				return -1
-			}
-			if gridLess(&b, &a) {
-				return 1
-			}
-			return 0
-		})
-		return
-	}
-	for ; i < len(g); i++ {
-		for j := i; j > 0 && gridLess(&g[j], &g[j-1]); j-- {
-			g[j], g[j-1] = g[j-1], g[j]
-		}
-	}
 }
