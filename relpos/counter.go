@@ -38,9 +38,9 @@ type Counter struct {
 	// distance within an instrument class) record the number of pairs with Δ < x.
 	cuts [numKinds][]int64
 	// mags are the magnitudes a at which the number of pairs with |Δ| ≤ a is known on
-	// pointer-counted kinds: every a ≤ exactMags, then steps of a/12.
+	// pointer-counted kinds: every a ≤ exact, then steps of max(1, a/12).
 	mags []int64
-	// exact is Config.Exact: magnitudes up to it are counted one by one (stream.small).
+	// exact is Config.ExactUpTo: magnitudes up to it are counted one by one (stream.small).
 	exact int64
 	// bounds are the time magnitudes binned when sampling: mags and budget magnitudes.
 	bounds []int64
@@ -55,7 +55,7 @@ type Counter struct {
 	gcnt       []int64
 }
 
-// DefaultExact is the default Config.Exact: the largest magnitude up to which quantiles
+// DefaultExact is the default Config.ExactUpTo: the largest magnitude up to which quantiles
 // of pointer-counted kinds are exact; above it they are known within a step of a/12
 // (≤ 8.4 %).
 const DefaultExact = 32
