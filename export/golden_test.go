@@ -46,27 +46,48 @@ func TestGoldenShard(t *testing.T) {
 	}
 }
 
-// FuzzReadShard feeds damaged shards to the reader that verify and merge use: it
-// must return an error, never panic or hang.
-func FuzzReadShard(f *testing.F) {
+// FuzzVerifyDamagedShard damages one shard of a sound dataset with arbitrary
+// bytes: verify must name the shard, without panic or hang (it reads a shard with
+// the Parquet reader only when its SHA-256 matches the manifest).
+func FuzzVerifyDamagedShard(f *testing.F) {
 	seed, err := os.ReadFile(filepath.Join("testdata", "shard.parquet"))
 	if err != nil {
 		f.Fatal(err)
 	}
-	f.Add(seed)
 	f.Add(seed[:len(seed)/2])
 	f.Add(seed[len(seed)-64:])
 	flip := bytes.Clone(seed)
 	flip[len(flip)-12] ^= 0xff // inside the footer length
 	f.Add(flip)
+	f.Add([]byte{})
 	dir := f.TempDir()
+	m, err := writeOutput(context.Background(), synthSpec(dir, 1), feedOf(synthFiles(6)), noCoverage)
+	if err != nil {
+		f.Fatal(err)
+	}
+	target := filepath.Join(dir, filepath.FromSlash(m.Shards[0].Path))
+	orig, err := os.ReadFile(target)
+	if err != nil {
+		f.Fatal(err)
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
-		p := filepath.Join(dir, "s.parquet")
-		if err := os.WriteFile(p, data, 0o644); err != nil {
+		if err := os.WriteFile(target, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		var rows int
-		_ = readRows(p, func(r []Row) error { rows += len(r); return nil })
+		defer os.WriteFile(target, orig, 0o644)
+		probs, err := Verify(context.Background(), dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if bytes.Equal(data, orig) {
+			return
+		}
+		for _, p := range probs {
+			if p.Path == m.Shards[0].Path {
+				return
+			}
+		}
+		t.Fatalf("damaged shard not reported; problems: %v", probs)
 	})
 }
 

@@ -70,6 +70,7 @@ type FileEntry struct {
 	Source  string `json:"source"`
 	Status  string `json:"status"`           // ok, skipped or duplicate (ingest's statuses)
 	Reason  string `json:"reason,omitempty"` // why skipped, or which file it duplicates
+	Class   string `json:"class,omitempty"`  // kind of skip reason, for counting: "truncated", "not MIDI", "encode"...
 	Pieces  int64  `json:"pieces"`           // pieces exported from the file (in this part)
 	Windows int64  `json:"windows"`          // rows written from the file (in this part)
 }

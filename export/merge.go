@@ -212,7 +212,7 @@ func checkParts(dirs []string, parts []*Manifest) error {
 		seen[m.Part.Index] = dirs[i]
 		for j, f := range m.Files {
 			g := first.Files[j]
-			if f.Dataset != g.Dataset || f.Source != g.Source || f.Status != g.Status {
+			if f.Dataset != g.Dataset || f.Source != g.Source || f.Status != g.Status || f.Reason != g.Reason {
 				return fmt.Errorf("merge: input %d is %s %s (%s) in %s but %s %s (%s) in %s: the parts read different inputs",
 					j, g.Dataset, g.Source, g.Status, dirs[0], f.Dataset, f.Source, f.Status, dirs[i])
 			}

@@ -238,6 +238,9 @@ func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest
 func (p *pipeline) process(enc *tokenize.Encoder, cw *coverageWorker, r *ingest.Result) (fileResult, error) {
 	rec := &r.Record
 	fr := fileResult{entry: FileEntry{Dataset: rec.Dataset, Source: rec.Path, Status: string(rec.Status), Reason: rec.Reason}}
+	if rec.Status == ingest.StatusSkipped {
+		fr.entry.Class = ingest.ReasonClass(r.Err)
+	}
 	if rec.DuplicateOf != "" {
 		fr.entry.Status = string(ingest.StatusDuplicate)
 		fr.entry.Reason = fmt.Sprintf("%s duplicate of %s", rec.DuplicateKind, rec.DuplicateOf)
@@ -261,6 +264,7 @@ func (p *pipeline) process(enc *tokenize.Encoder, cw *coverageWorker, r *ingest.
 			fr.rows = nil
 			fr.entry.Status = string(ingest.StatusSkipped)
 			fr.entry.Reason = fmt.Sprintf("encode piece %d: %v", pc.Index, err)
+			fr.entry.Class = ClassEncode
 			fr.entry.Pieces, fr.entry.Windows = 0, 0
 			return fr, nil
 		}
@@ -275,6 +279,9 @@ func (p *pipeline) process(enc *tokenize.Encoder, cw *coverageWorker, r *ingest.
 	}
 	return fr, nil
 }
+
+// ClassEncode is the FileEntry.Class of a file whose notes could not be encoded.
+const ClassEncode = "encode"
 
 // rowOf copies a window (whose tokens are valid only until the next one) into a row.
 func rowOf(w tokenize.Window, piece string, rec *ingest.FileRecord, hash, split string) Row {

@@ -4,7 +4,9 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"maps"
 	"os"
+	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
@@ -313,6 +315,9 @@ func runExport(ctx context.Context, cmd *cobra.Command, o *exportOptions, s *str
 	if bar != nil {
 		_ = bar.Finish()
 	}
+	if errors.Is(err, context.Canceled) {
+		return &exitError{code: exitFailed, err: fmt.Errorf("interrupted; run the same command again to finish the export in %s", o.out)}
+	}
 	if err != nil {
 		if errors.Is(err, export.ErrFolderInUse) {
 			return &exitError{code: exitFailed, err: err}
@@ -322,8 +327,15 @@ func runExport(ctx context.Context, cmd *cobra.Command, o *exportOptions, s *str
 	if err := printSummary(s, m, o.out); err != nil {
 		return err
 	}
-	if m.Totals.FilesSkipped > 0 {
-		return &exitError{code: exitSkipped}
+	// As in scan: archive entries that are not MIDI files are listed, not failures.
+	skipped := 0
+	for _, f := range m.Files {
+		if f.Status == string(ingest.StatusSkipped) && f.Class != ingest.ErrNotMIDI.Error() {
+			skipped++
+		}
+	}
+	if skipped > 0 {
+		return &exitError{code: exitSkipped, err: fmt.Errorf("%d of %d input files skipped (see files in %s)", skipped, len(m.Files), filepath.Join(o.out, export.ManifestName))}
 	}
 	return nil
 }
@@ -338,6 +350,15 @@ func printSummary(s *streams, m *export.Manifest, dir string) error {
 	}
 	fmt.Fprintf(&b, "%s%s: %d windows, %d tokens, %d pieces in %d shards (%s)\n", dir, part, t.Windows, t.Tokens, t.Pieces, t.Shards, byteCount(t.Bytes))
 	fmt.Fprintf(&b, "files: %d (%d ok, %d duplicate, %d skipped)\n", t.Files, t.FilesOK, t.FilesDuplicate, t.FilesSkipped)
+	classes := map[string]int{}
+	for _, f := range m.Files {
+		if f.Status == string(ingest.StatusSkipped) {
+			classes[f.Class]++
+		}
+	}
+	for _, c := range slices.Sorted(maps.Keys(classes)) {
+		fmt.Fprintf(&b, "  skipped, %s: %d\n", c, classes[c])
+	}
 	for _, sp := range export.Splits {
 		st := t.Splits[sp]
 		fmt.Fprintf(&b, "%-10s %8d pieces %10d windows %12d tokens %5d shards\n", sp, st.Pieces, st.Windows, st.Tokens, st.Shards)
