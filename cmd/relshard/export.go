@@ -163,11 +163,15 @@ func parseRatios(s string) (export.Ratios, error) {
 
 // resolvePart reads --part: "", "I/N", or "auto" (scheduler environment).
 //
-// Kubernetes Indexed Jobs set JOB_COMPLETION_INDEX (0-based) and do not publish
-// the completion count, so --parts N is needed. Slurm job arrays set
-// SLURM_ARRAY_TASK_ID, SLURM_ARRAY_TASK_MIN and SLURM_ARRAY_TASK_COUNT; the part
-// is ID − MIN + 1 of COUNT, so --array=0-3 and --array=1-4 both give parts 1..4
-// (a stepped array such as --array=0-6:2 is refused: its ids are not contiguous).
+// Kubernetes Indexed Jobs (completionMode: Indexed) set JOB_COMPLETION_INDEX, from
+// 0 to completions − 1, and do not publish the completion count, so --parts N is
+// needed (kubernetes.io, "Indexed Job for Parallel Processing with Static Work
+// Assignment"). Slurm job arrays set SLURM_ARRAY_TASK_ID to the task's array index
+// (slurm.schedmd.com, "Job Array Support"), and SLURM_ARRAY_TASK_MIN,
+// SLURM_ARRAY_TASK_COUNT and SLURM_ARRAY_TASK_STEP (same page, from memory); the
+// part is ID − MIN + 1 of COUNT, so --array=0-3 and --array=1-4 both give parts
+// 1..4. A stepped or listed array (--array=0-6:2, --array=1,3,5) is refused: its
+// ids are not contiguous, and the part index would fall outside 1..COUNT.
 func resolvePart(flag string, parts int, getenv func(string) string) (export.Part, error) {
 	switch flag {
 	case "":
