@@ -60,7 +60,7 @@ type Counter struct {
 // (≤ 8.4 %).
 const DefaultExact = 32
 
-// maxExact bounds Config.Exact.
+// maxExact bounds Config.ExactUpTo.
 const maxExact = 1 << 16
 
 func quantileMags(exactMags int64) []int64 {
@@ -190,7 +190,7 @@ type stream struct {
 	dneg, dpos []int64           // distance: pairs at Δ = −a and +a (whole window)
 	phist      [pitchSpan]int64  // pitch: pairs at Δp + 127
 	below      [numKinds][]int64 // pointer-counted kinds: pairs with Δ < cuts[k][i]
-	small      [numKinds][]int64 // pointer-counted kinds: pairs with Δ = −a, 1 ≤ a ≤ exactMags
+	small      [numKinds][]int64 // pointer-counted kinds: pairs with Δ = −a, 1 ≤ a ≤ Counter.exact
 	// sampling: per-scheme counts; distance and pitch offsets in dneg, dpos and phist;
 	// time magnitudes in bins: tbins[i] = pairs with bounds[i−1] < |Δ| ≤ bounds[i]
 	sc    [numKinds][]SchemeCounts
