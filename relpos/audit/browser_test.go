@@ -16,8 +16,9 @@ import (
 )
 
 // probeWidths are the viewport widths the report is measured at: a common laptop
-// width in CSS pixels, and a small one.
-var probeWidths = []int{1366, 1024}
+// width in CSS pixels, a small one, and about the width of a printed A4 page
+// (21 cm at 96 CSS pixels per inch, less margins).
+var probeWidths = []int{1366, 1024, 700}
 
 // probeHarness loads the report into one iframe per width (srcdoc frames share the
 // harness's origin, so its script can measure inside them) and, once everything is
