@@ -4,6 +4,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"strings"
 	"sync"
 	"testing"
 
@@ -104,5 +105,53 @@ func TestRunEveryInputOnce(t *testing.T) {
 	})
 	if len(m.Files) != n {
 		t.Errorf("manifest lists %d files, the corpus folder holds %d", len(m.Files), n)
+	}
+}
+
+// TestRunDuplicates copies one corpus file under another name: by default the
+// copy is listed as a duplicate and not exported; with keep_duplicates it is
+// exported too, into the split of the original.
+func TestRunDuplicates(t *testing.T) {
+	src := testCorpus(t)[0].Path
+	var first string
+	filepath.WalkDir(src, func(p string, d os.DirEntry, err error) error {
+		if err == nil && first == "" && !d.IsDir() && filepath.Ext(p) == ".mid" {
+			first = p
+		}
+		return nil
+	})
+	data, err := os.ReadFile(first)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dup := t.TempDir()
+	os.WriteFile(filepath.Join(dup, "copy.mid"), data, 0o644)
+	sources := []ingest.Source{{Path: first, Dataset: "orig"}, {Path: dup, Dataset: "copies"}}
+	for _, keep := range []bool{false, true} {
+		cfg := smallConfig()
+		cfg.Shards.KeepDuplicates = keep
+		m, err := Run(context.Background(), sources, cfg, Options{Out: t.TempDir(), Workers: 2, ToolVersion: "test"})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(m.Files) != 2 {
+			t.Fatalf("%d files listed, want 2", len(m.Files))
+		}
+		orig, cp := m.Files[0], m.Files[1]
+		if orig.Status != "ok" || orig.Windows == 0 {
+			t.Fatalf("original %+v", orig)
+		}
+		if cp.Status != "duplicate" || !strings.Contains(cp.Reason, "orig/") {
+			t.Errorf("keep=%v: copy %+v, want a duplicate naming the original", keep, cp)
+		}
+		if keep && (cp.Windows != orig.Windows || !strings.Contains(cp.Reason, "kept")) {
+			t.Errorf("keep: copy %+v exported %d windows, original %d", cp, cp.Windows, orig.Windows)
+		}
+		if !keep && (cp.Windows != 0 || cp.Pieces != 0) {
+			t.Errorf("copy exported by default: %+v", cp)
+		}
+		if m.Totals.FilesDuplicate != 1 {
+			t.Errorf("keep=%v: %d duplicates in totals", keep, m.Totals.FilesDuplicate)
+		}
 	}
 }
