@@ -65,14 +65,16 @@ func (p *pairer) noteOn(ch, key, vel uint8, tick int64) {
 		}
 		p.held[k] = noKey
 	}
-	p.buf = append(p.buf, rawNote{
-		StartTick: tick,
-		EndTick:   -1,
-		Pitch:     key,
-		Velocity:  vel,
-		Channel:   ch,
-		Track:     int32(p.track),
-	})
+	// Fields are stored one by one: a composite literal is built in a stack temporary
+	// and copied with wider loads than its stores, which stalls store forwarding.
+	p.buf = append(p.buf, rawNote{})
+	n := &p.buf[len(p.buf)-1]
+	n.StartTick = tick
+	n.EndTick = -1
+	n.Pitch = key
+	n.Velocity = vel
+	n.Channel = ch
+	n.Track = int32(p.track)
 	p.open[k] = int32(len(p.buf))
 	p.nopen++
 }
@@ -272,6 +274,8 @@ type progChange struct {
 // emitter expands raw notes, in final order, into Notes: seconds through the time
 // map (starts are non-decreasing, so a segment cursor follows them), the program in
 // effect on the channel (changes in tick order, stable by track) and the drum flag.
+// Notes of a chord share their start and often their end: the last start and end
+// times are kept, which saves most of the divisions.
 type emitter struct {
 	tm    *TimeMap
 	seg   int
@@ -279,41 +283,52 @@ type emitter struct {
 	pc    int
 	cur   [numChannels]uint8
 	zero  int
+
+	started            bool // startTick and startSec hold the last start
+	startTick, endTick int64
+	startSec, endSec   float64
+	ended              bool // endTick and endSec hold the last end
 }
 
 func (em *emitter) put(n *Note, r *rawNote) {
-	segs := em.tm.segs
-	for em.seg+1 < len(segs) && segs[em.seg+1].tick <= r.StartTick {
-		em.seg++
-	}
-	for em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
-		c := &em.progs[em.pc]
-		em.cur[c.channel&statusChannelMask] = c.program
-		em.pc++
-	}
-	e := em.seg
-	for e+1 < len(segs) && segs[e+1].tick <= r.EndTick {
-		e++
-		if e-em.seg > 8 {
-			e = em.tm.segment(r.EndTick)
-			break
-		}
-	}
 	tm := em.tm
-	if r.EndTick == r.StartTick {
+	segs := tm.segs
+	if !em.started || r.StartTick != em.startTick {
+		for em.seg+1 < len(segs) && segs[em.seg+1].tick <= r.StartTick {
+			em.seg++
+		}
+		for em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
+			c := &em.progs[em.pc]
+			em.cur[c.channel&statusChannelMask] = c.program
+			em.pc++
+		}
+		em.started, em.startTick, em.startSec = true, r.StartTick, tm.at(em.seg, r.StartTick)
+	}
+	switch {
+	case r.EndTick == r.StartTick:
 		em.zero++
+		em.ended, em.endTick, em.endSec = true, r.EndTick, em.startSec
+	case !em.ended || r.EndTick != em.endTick:
+		e := em.seg
+		for e+1 < len(segs) && segs[e+1].tick <= r.EndTick {
+			e++
+			if e-em.seg > 8 {
+				e = tm.segment(r.EndTick)
+				break
+			}
+		}
+		em.ended, em.endTick, em.endSec = true, r.EndTick, tm.at(e, r.EndTick)
 	}
 	ch := r.Channel & statusChannelMask
-	*n = Note{
-		StartTick: r.StartTick,
-		EndTick:   r.EndTick,
-		Start:     tm.at(em.seg, r.StartTick),
-		End:       tm.at(e, r.EndTick),
-		Pitch:     r.Pitch,
-		Velocity:  r.Velocity,
-		Channel:   ch,
-		Program:   em.cur[ch],
-		Drum:      ch == drumChannel,
-		Track:     int(r.Track),
-	}
+	// field by field into *n, not through a composite literal (see pairer.noteOn)
+	n.StartTick = r.StartTick
+	n.EndTick = r.EndTick
+	n.Start = em.startSec
+	n.End = em.endSec
+	n.Pitch = r.Pitch
+	n.Velocity = r.Velocity
+	n.Channel = ch
+	n.Program = em.cur[ch]
+	n.Drum = ch == drumChannel
+	n.Track = int(r.Track)
 }
