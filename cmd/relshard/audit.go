@@ -161,7 +161,8 @@ func init() {
 top-level folder of it), build the distributions of inter-onset intervals, of the time
 and pitch offsets (|Δt|, Δp) between the token pairs attention sees inside training
 windows, of note durations, velocities, polyphony and tempo. Windows are cut as export
-cuts them (same config file and token flags), from the unaugmented stream.
+cuts them (same config file and token flags), from the unaugmented stream: the data's
+own timing, so --transpose changes nothing here.
 
 Per file: the beat grid its onsets sit on ("on a 1/16 grid", "triplet grid (1/8
 triplets)", "unquantized performance"): the coarsest grid of 1, 2, 3, 4, 6, 8, 12, 16,

@@ -303,6 +303,7 @@ func (a *Auditor) Report() *Report {
 		TimeUnit: a.enc.TimeUnit(),
 		Settings: Settings{
 			Encoding: a.cfg.Tokenize.Encoding,
+			Pairs:    string(a.counter.Config().Pairs),
 			MaxLen:   a.cfg.Tokenize.MaxLen,
 			Grid:     a.cfg.Grid,
 			Tempo:    a.cfg.Tempo,

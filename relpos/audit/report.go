@@ -33,6 +33,7 @@ type Skipped struct {
 // Settings records the parameters a report was made with.
 type Settings struct {
 	Encoding string        `json:"encoding"`
+	Pairs    string        `json:"pairs"` // causal or bidirectional, as relpos counts them
 	MaxLen   int           `json:"max_len"`
 	Grid     GridConfig    `json:"grid"`
 	Tempo    TempoRange    `json:"tempo"`
