@@ -15,7 +15,8 @@ import (
 // shards per split and writes full shards on up to workers goroutines. Where a
 // shard is cut depends only on the rows before it, never on timing, so the files
 // are the same for every worker count. Memory is bounded by one open shard per
-// split plus one shard per writing worker.
+// split plus one shard per writing worker (less: a shard being written drops
+// each row group once it is encoded).
 type datasetWriter struct {
 	dir     string
 	part    Part
@@ -100,7 +101,7 @@ func (w *datasetWriter) cut(split string) error {
 		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
 			return fmt.Errorf("create %s folder: %w", split, err)
 		}
-		sh, err := WriteShard(p, o.rows, opt)
+		sh, err := writeShard(p, o.rows, opt, true)
 		if err != nil {
 			return err
 		}

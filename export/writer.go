@@ -69,6 +69,12 @@ type Shard struct {
 // renamed to path only when complete, so path never holds a partial file. The
 // returned Shard has the path as given (callers make it relative).
 func WriteShard(path string, rows []Row, opt ShardOptions) (Shard, error) {
+	return writeShard(path, rows, opt, false)
+}
+
+// writeShard is WriteShard; with release, each row is cleared once its row group
+// is encoded, so a shard's memory shrinks while it is written.
+func writeShard(path string, rows []Row, opt ShardOptions, release bool) (Shard, error) {
 	sh := Shard{Path: path, Rows: int64(len(rows))}
 	if len(rows) > 0 {
 		sh.Split = rows[0].Split
@@ -84,7 +90,7 @@ func WriteShard(path string, rows []Row, opt ShardOptions) (Shard, error) {
 	h := sha256.New()
 	cw := &countWriter{w: io.MultiWriter(f, h)}
 	bw := bufio.NewWriterSize(cw, 1<<20)
-	err = encodeShard(bw, rows, opt)
+	err = encodeShard(bw, rows, opt, release)
 	if err == nil {
 		err = bw.Flush()
 	}
@@ -113,10 +119,10 @@ const TempSuffix = ".partial"
 // EncodeShard writes rows as one Parquet file to w. It is what WriteShard does
 // inside its temporary file, for callers that keep shards elsewhere.
 func EncodeShard(w io.Writer, rows []Row, opt ShardOptions) error {
-	return encodeShard(w, rows, opt)
+	return encodeShard(w, rows, opt, false)
 }
 
-func encodeShard(w io.Writer, rows []Row, opt ShardOptions) error {
+func encodeShard(w io.Writer, rows []Row, opt ShardOptions, release bool) error {
 	name := opt.Compression
 	if name == "" {
 		name = CompressionZstd
@@ -157,6 +163,9 @@ func encodeShard(w io.Writer, rows []Row, opt ShardOptions) error {
 		}
 		if err := pw.Flush(); err != nil {
 			return fmt.Errorf("flush row group: %w", err)
+		}
+		if release {
+			clear(rows[start : i+1])
 		}
 		start, group = i+1, 0
 	}
