@@ -5,7 +5,6 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"encoding/hex"
-	"hash"
 	"math"
 	"math/bits"
 	"slices"
@@ -58,14 +57,11 @@ func (k noteKey) drum() bool   { return k.rest>>keyDrumBit != 0 }
 
 // pieceHasher computes content hashes, reusing its buffers between pieces.
 type pieceHasher struct {
-	keys             []noteKey
-	buf, tbuf        []byte
-	musical, transpo hash.Hash
+	keys      []noteKey
+	buf, tbuf []byte
 }
 
-func newPieceHasher() *pieceHasher {
-	return &pieceHasher{musical: sha256.New(), transpo: sha256.New()}
-}
+func newPieceHasher() *pieceHasher { return &pieceHasher{} }
 
 // fileSHA256 returns the hex SHA-256 of a file's bytes.
 func fileSHA256(data []byte) string {
@@ -75,6 +71,11 @@ func fileSHA256(data []byte) string {
 
 // hashLen is the number of SHA-256 bytes kept in a content hash (128 bits).
 const hashLen = 16
+
+// maxRunInsert is the longest run of notes starting together that hashPiece keeps in
+// order by insertion; a longer one (many tracks starting together) is sorted when it
+// ends.
+const maxRunInsert = 16
 
 // hashPiece fills p.MusicalHash and p.TransposedHash.
 func (h *pieceHasher) hashPiece(p *Piece) {
@@ -86,102 +87,149 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	if den <= 0 {
 		den = 1
 	}
-	h.keys = h.keys[:0]
-	minPitch := uint8(255)
-	for i := range p.Notes {
-		n := &p.Notes[i]
-		h.keys = append(h.keys, packKey(n))
-		if !n.Drum && n.Pitch < minPitch {
-			minPitch = n.Pitch
-		}
-	}
+	// One pass over the notes packs the keys in hash order, finds the lowest non-drum
+	// key and the greatest common divisor of den and every onset and duration.
+	//
 	// Within one piece every note has the same denominator, so ordering by ticks orders
 	// by beat time too; the order is thus the same at any PPQ and under transposition.
-	// Parse delivers notes sorted by start tick, so only runs of equal starts need
-	// sorting; anything else gets a full sort.
-	if slices.IsSortedFunc(h.keys, func(a, b noteKey) int { return cmp.Compare(a.start, b.start) }) {
-		for i := 0; i < len(h.keys); {
-			j := i + 1
-			for j < len(h.keys) && h.keys[j].start == h.keys[i].start {
-				j++
-			}
-			sortRunByRest(h.keys[i:j])
-			i = j
-		}
-	} else {
-		slices.SortFunc(h.keys, compareKeys)
-	}
+	// Parse delivers notes sorted by start tick, so each note is inserted into the run of
+	// notes that start with it; anything else gets a full sort.
+	//
 	// The onsets and durations are fractions over one denominator; dividing all of them
 	// and the denominator by their greatest common divisor gives the smallest common
 	// denominator, which is the same for any PPQ the same music is written at, and the
-	// numerators over it: an exact encoding without reducing each fraction.
-	g := uint64(den)
-	for _, k := range h.keys {
-		if g == 1 {
-			break
+	// numerators over it: an exact encoding without reducing each fraction. The divisor
+	// is found as its power of two (the lowest set bit of all values ORed) times its odd
+	// part, which a multiplication tests without dividing (see divisible).
+	keys := h.keys[:0]
+	minPitch := uint8(255)
+	sorted := true
+	prev, run := int64(math.MinInt64), 0
+	ored := uint64(den)
+	odd := ored >> bits.TrailingZeros64(ored)
+	inv, lim := oddInverse(odd), math.MaxUint64/odd
+	for i := range p.Notes {
+		n := &p.Notes[i]
+		k := packKey(n)
+		if !n.Drum && n.Pitch < minPitch {
+			minPitch = n.Pitch
 		}
-		for _, v := range [2]int64{k.start * scale, k.dur() * scale} {
-			if r := uint64(max(v, 0)) % g; r != 0 {
-				g = gcd(g, r)
+		on, ln := uint64(max(k.start*scale, 0)), uint64(max(k.dur()*scale, 0))
+		ored |= on | ln
+		if odd > 1 {
+			if !divisible(on, inv, lim) {
+				odd = gcd(odd, on%odd)
+				inv, lim = oddInverse(odd), math.MaxUint64/odd
+			}
+			if !divisible(ln, inv, lim) {
+				odd = gcd(odd, ln%odd)
+				inv, lim = oddInverse(odd), math.MaxUint64/odd
 			}
 		}
-	}
-	pow2 := g&(g-1) == 0 // 1 included: shift instead of dividing
-	shift := uint(bits.TrailingZeros64(g))
-	div := func(v int64) uint64 {
-		if pow2 {
-			return uint64(max(v, 0)) >> shift
+		keys = append(keys, k)
+		if !sorted {
+			continue
 		}
-		return uint64(max(v, 0)) / g
+		switch {
+		case k.start > prev:
+			if len(keys)-1-run > maxRunInsert {
+				slices.SortFunc(keys[run:len(keys)-1], compareKeys)
+			}
+			prev, run = k.start, len(keys)-1
+		case k.start < prev:
+			sorted = false
+		case len(keys)-run > maxRunInsert:
+			// a long run: sorted when it ends
+		default:
+			j := len(keys) - 1
+			for j > run && keys[j-1].rest > k.rest {
+				keys[j] = keys[j-1]
+				j--
+			}
+			keys[j] = k
+		}
 	}
-	h.musical.Reset()
-	h.transpo.Reset()
+	switch {
+	case !sorted:
+		slices.SortFunc(keys, compareKeys)
+	case len(keys)-run > maxRunInsert:
+		slices.SortFunc(keys[run:], compareKeys)
+	}
+	h.keys = keys
+	shift := uint(bits.TrailingZeros64(ored))
+	g := odd << shift
+	inv = oddInverse(odd)
+	// div is v/g for v a multiple of g: an exact division by the odd part is a
+	// multiplication by its inverse modulo 2^64.
+	div := func(v int64) uint64 { return uint64(max(v, 0)) >> shift * inv }
+
 	m := append(h.buf[:0], hashVersion...)
 	m = append(m, unit) // quarter notes or seconds
 	m = binary.AppendUvarint(m, uint64(den)/g)
-	m = binary.AppendUvarint(m, uint64(len(h.keys)))
-	tr := append(h.tbuf[:0], m...)
-	for _, k := range h.keys {
+	m = binary.AppendUvarint(m, uint64(len(keys)))
+	// The notes are written with indexes into buffers grown once to the most they
+	// can take: two 10-byte varints and two bytes per note.
+	head := len(m)
+	need := head + len(keys)*(2*binary.MaxVarintLen64+2)
+	m = slices.Grow(m, need-head)[:need]
+	tr := slices.Grow(h.tbuf[:0], need)[:need]
+	i := copy(tr, m[:head])
+	j := i
+	for _, k := range keys {
 		on, ln := div(k.start*scale), div(k.dur()*scale)
-		m = binary.AppendUvarint(binary.AppendUvarint(m, on), ln)
-		tr = binary.AppendUvarint(binary.AppendUvarint(tr, on), ln)
-		pitch, drum := k.pitch(), k.drum()
-		m = append(m, pitch, boolByte(drum))
+		for on >= 0x80 {
+			m[i], tr[j] = byte(on)|0x80, byte(on)|0x80
+			on >>= 7
+			i++
+			j++
+		}
+		m[i], tr[j] = byte(on), byte(on)
+		i++
+		j++
+		for ln >= 0x80 {
+			m[i], tr[j] = byte(ln)|0x80, byte(ln)|0x80
+			ln >>= 7
+			i++
+			j++
+		}
+		m[i], tr[j] = byte(ln), byte(ln)
+		pitch, drum := k.pitch(), boolByte(k.drum())
 		rel := pitch
-		if !drum {
+		if drum == 0 {
 			rel -= minPitch
 		}
-		tr = append(tr, rel, boolByte(drum))
+		m[i+1], m[i+2] = pitch, drum
+		tr[j+1], tr[j+2] = rel, drum
+		i += 3
+		j += 3
 	}
-	h.musical.Write(m)
-	h.transpo.Write(tr)
+	m, tr = m[:i], tr[:j]
 	h.buf, h.tbuf = m, tr
-	var sum [sha256.Size]byte
-	p.MusicalHash = hex.EncodeToString(h.musical.Sum(sum[:0])[:hashLen])
-	p.TransposedHash = hex.EncodeToString(h.transpo.Sum(sum[:0])[:hashLen])
+	sum := sha256.Sum256(m)
+	p.MusicalHash = hex.EncodeToString(sum[:hashLen])
+	sum = sha256.Sum256(tr)
+	p.TransposedHash = hex.EncodeToString(sum[:hashLen])
 }
 
 func compareKeys(a, b noteKey) int {
 	return cmp.Or(cmp.Compare(a.start, b.start), cmp.Compare(a.rest, b.rest))
 }
 
-// sortRunByRest sorts notes that start together: insertion sort for the usual chord
-// sizes, the library sort beyond.
-func sortRunByRest(run []noteKey) {
-	if len(run) > 16 {
-		slices.SortFunc(run, compareKeys)
-		return
+// oddInverse returns the inverse of the odd number d modulo 2^64, by Newton's
+// iteration: each step doubles the correct low bits, from 3 (d*d = 1 mod 8).
+func oddInverse(d uint64) uint64 {
+	x := d
+	for range 5 {
+		x *= 2 - d*x
 	}
-	for i := 1; i < len(run); i++ {
-		k := run[i]
-		j := i
-		for j > 0 && run[j-1].rest > k.rest {
-			run[j] = run[j-1]
-			j--
-		}
-		run[j] = k
-	}
+	return x
 }
+
+// divisible reports whether the odd number d divides v, given inv = oddInverse(d) and
+// lim = MaxUint64/d: the multiples of d are exactly the v whose product with the
+// inverse is at most lim (Granlund and Montgomery 1994, "Division by invariant
+// integers using multiplication", section 9).
+func divisible(v, inv, lim uint64) bool { return v*inv <= lim }
 
 // gcd is the binary (Stein's) greatest common divisor of a, b > 0: shifts and
 // subtractions, no divisions.
