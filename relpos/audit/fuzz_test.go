@@ -42,8 +42,8 @@ func FuzzPairCounter(f *testing.F) {
 			return
 		}
 		toks := tokensFrom(data)
-		fastT, fastP := newHist(0, 5000), newHist(-maxPairDP, maxPairDP)
-		slowT, slowP := newHist(0, 5000), newHist(-maxPairDP, maxPairDP)
+		fastT, fastP := newWideHist(0, 5000, 64), newHist(-maxPairDP, maxPairDP)
+		slowT, slowP := newWideHist(0, 5000, 64), newHist(-maxPairDP, maxPairDP)
 		var pc pairCounter
 		pc.window(toks, fastT, fastP)
 		naivePairs(toks, slowT, slowP)

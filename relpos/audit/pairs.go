@@ -92,39 +92,56 @@ func (pc *pairCounter) window(toks []tokenize.Token, dt, dp *Hist) {
 }
 
 // addTimePairs counts, for distinct sorted times with multiplicities, every pair of
-// tokens by the difference of their times into h, whose Lo must be 0.
+// tokens by the difference of their times into h, whose Lo must be 0. The pair
+// count, sum and maximum come from suffix sums; the inner loop only increments
+// counters, finding a wide counter once per counter rather than once per pair (the
+// differences grow along it).
 func addTimePairs(times []int32, counts []int64, h *Hist) {
-	var over int64
-	var n int64
-	var sum int64
+	var over, n, sum int64
 	maxD := int64(-1)
 	cs := h.Counts
 	hi := h.Hi()
-	exact := h.Exact // h.Lo is 0: a counter index is the value below exact
+	exact := h.Exact
 	if exact == 0 {
 		exact = int64(len(cs))
 	}
-	for k, tk := range times {
-		c := counts[k]
+	last := len(times) - 1
+	var sufC, sufT int64 // tokens after k, and the sum of their times
+	for k := last; k >= 0; k-- {
+		tk, c := int64(times[k]), counts[k]
 		if c > 1 {
-			same := c * (c - 1) / 2
-			h.AddN(0, same)
+			h.AddN(0, c*(c-1)/2)
 		}
-		for l := k + 1; l < len(times); l++ {
-			d := int64(times[l]) - int64(tk)
-			w := c * counts[l]
-			switch {
-			case d < exact:
-				cs[d] += w
-			case d > hi:
-				over += w
-			default:
-				cs[h.index(d)] += w
+		if sufC > 0 {
+			n += c * sufC
+			sum += c * (sufT - tk*sufC)
+			maxD = max(maxD, int64(times[last])-tk)
+			l := k + 1
+			for ; l <= last; l++ {
+				d := int64(times[l]) - tk
+				if d >= exact {
+					break
+				}
+				cs[d] += c * counts[l]
 			}
-			n += w
-			sum += d * w
-			maxD = max(maxD, d)
+			idx, upper := int64(-1), int64(-1)
+			for ; l <= last; l++ {
+				d := int64(times[l]) - tk
+				if d > hi {
+					for ; l <= last; l++ {
+						over += c * counts[l]
+					}
+					break
+				}
+				if d > upper {
+					idx = h.index(d)
+					upper = h.upper(idx)
+				}
+				cs[idx] += c * counts[l]
+			}
 		}
+		sufC += c
+		sufT += tk * c
 	}
 	if n == 0 {
 		return
@@ -134,13 +151,11 @@ func addTimePairs(times []int32, counts []int64, h *Hist) {
 	h.N += n
 	h.Sum += sum
 	h.Max = max(h.Max, maxD)
-	if len(times) > 1 {
-		minD := int64(times[1]) - int64(times[0])
-		for k := 2; k < len(times); k++ {
-			minD = min(minD, int64(times[k])-int64(times[k-1]))
-		}
-		h.Min = min(h.Min, minD)
+	minD := int64(times[1]) - int64(times[0])
+	for k := 2; k < len(times); k++ {
+		minD = min(minD, int64(times[k])-int64(times[k-1]))
 	}
+	h.Min = min(h.Min, minD)
 }
 
 // naivePairs is the reference: every pair (i < j) one by one.

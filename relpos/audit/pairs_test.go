@@ -38,12 +38,18 @@ func randomWindow(r *rand.Rand, n int, sorted bool) []tokenize.Token {
 func TestPairCounterMatchesNaive(t *testing.T) {
 	r := rand.New(rand.NewPCG(1, 2))
 	var pc pairCounter
-	// A short Δt range, so that the upper tail is exercised too.
-	fastT, fastP := newHist(0, 20_000), newHist(-maxPairDP, maxPairDP)
-	slowT, slowP := newHist(0, 20_000), newHist(-maxPairDP, maxPairDP)
+	// Short Δt ranges, so that the upper tail is exercised too; exact counters
+	// throughout, and exact counters below 64 with 64 per octave above.
+	exactT, exactS := newHist(0, 20_000), newHist(0, 20_000)
+	wideT, wideS := newWideHist(0, 20_000, 64), newWideHist(0, 20_000, 64)
+	fastP, slowP := newHist(-maxPairDP, maxPairDP), newHist(-maxPairDP, maxPairDP)
 	for trial := range 300 {
 		n := r.IntN(300)
 		toks := randomWindow(r, n, trial%10 != 0)
+		fastT, slowT := exactT, exactS
+		if trial%2 == 1 {
+			fastT, slowT = wideT, wideS
+		}
 		for _, h := range []*Hist{fastT, fastP, slowT, slowP} {
 			resetHist(h)
 		}
