@@ -13,6 +13,8 @@ import (
 	"os/exec"
 	"path/filepath"
 	"reflect"
+	"runtime"
+	"runtime/metrics"
 	"slices"
 	"strings"
 	"syscall"
@@ -186,8 +188,19 @@ func testHostileMixed(t *testing.T, valid, hostile ingest.Source) {
 	base := t.TempDir()
 	mixedDir, aloneDir := filepath.Join(base, "mixed"), filepath.Join(base, "alone")
 	start := time.Now()
+	runtime.GC()
+	var ms runtime.MemStats
+	runtime.ReadMemStats(&ms)
+	stop := heapPeak()
 	mixed := runSources(t, mixedDir, []ingest.Source{valid, hostile}, 2)
-	t.Logf("mixed export of %d files took %v", len(mixed.Files), time.Since(start))
+	grow := int64(stop()) - int64(ms.HeapAlloc)
+	t.Logf("mixed export of %d files took %v; heap peak +%d MiB", len(mixed.Files), time.Since(start), grow>>20)
+	// Memory is bounded by shards in flight (40 rows of at most 128 tokens here) and
+	// files in flight per worker, not by the corpus; a damaged length trusted anywhere
+	// would cost hundreds of MiB.
+	if grow > 96<<20 {
+		t.Errorf("heap peaked %d MiB above its start", grow>>20)
+	}
 	alone := runSources(t, aloneDir, []ingest.Source{valid}, 2)
 	mustVerify(t, mixedDir)
 	mustVerify(t, aloneDir)
@@ -326,6 +339,33 @@ func testForeignFolderUntouched(t *testing.T, valid ingest.Source) {
 		}
 		sameStates(t, "output file", before, fileStates(t, p))
 	})
+}
+
+// heapPeak samples the bytes of heap objects (live and not yet swept) every
+// millisecond until stop is called, and returns the largest value seen.
+func heapPeak() (stop func() uint64) {
+	s := []metrics.Sample{{Name: "/memory/classes/heap/objects:bytes"}}
+	var peak uint64
+	done, finished := make(chan struct{}), make(chan struct{})
+	go func() {
+		defer close(finished)
+		tick := time.NewTicker(time.Millisecond)
+		defer tick.Stop()
+		for {
+			metrics.Read(s)
+			peak = max(peak, s[0].Value.Uint64())
+			select {
+			case <-done:
+				return
+			case <-tick.C:
+			}
+		}
+	}()
+	return func() uint64 {
+		close(done)
+		<-finished
+		return peak
+	}
 }
 
 // relshardBinary builds the relshard command into a temporary folder.
