@@ -119,12 +119,12 @@ func TestAuditCommand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if n := strings.Count(string(page), `<svg class="chart"`); n != 12 {
-		t.Errorf("HTML report has %d charts, want 12", n)
+	if n := strings.Count(string(page), `<svg class="chart"`); n != 18 {
+		t.Errorf("HTML report has %d charts, want 18", n)
 	}
 	names, err := filepath.Glob(filepath.Join(charts, "*"))
-	if err != nil || len(names) != 24 {
-		t.Errorf("charts dir holds %d files, want 24 (12 charts as SVG and PNG): %v", len(names), err)
+	if err != nil || len(names) != 36 {
+		t.Errorf("charts dir holds %d files, want 36 (18 charts as SVG and PNG): %v", len(names), err)
 	}
 
 	// Tables by default.

@@ -7,6 +7,7 @@ import (
 	"image/color"
 	"io"
 	"math"
+	"strconv"
 	"strings"
 
 	"gonum.org/v1/plot"
@@ -133,6 +134,11 @@ func (r *Report) Charts() ([]*Chart, error) {
 			timeHist(stem+"-ioi-hist", d.Name, "inter-onset intervals", "ms", d.IOI.h, nil),
 		)
 		out[len(out)-1].Kind = "ioi"
+		out = append(out,
+			linearHist(stem+"-velocity-hist", d.Name, "velocity", "note-on velocity", "velocity", d.Velocity.h, 1, 127, 1),
+			linearHist(stem+"-polyphony-hist", d.Name, "polyphony", "pitched notes sounding at an onset", "polyphony", d.Polyphony.h, 0, -1, 1),
+			linearHist(stem+"-tempo-hist", d.Name, "tempo", "tempo at each onset, BPM", "tempo", d.Tempo.h, -1, -1, 2),
+		)
 	}
 	if len(r.Datasets) > 1 {
 		out = append(out, timeCDF("all-dt-cdf", "", r.TimeUnit, r.Datasets, ts), pitchCDF("all-dp-cdf", "", r.Datasets, ps))
@@ -145,7 +151,7 @@ func (r *Report) Charts() ([]*Chart, error) {
 		if c.Kind == "dp" {
 			list = ps
 		}
-		if c.Kind != "ioi" && len(list) > 0 {
+		if (c.Kind == "dt" || c.Kind == "dp") && len(list) > 0 {
 			names := make([]string, len(list))
 			for i, s := range list {
 				names[i] = s.Name
@@ -173,8 +179,22 @@ func fileStem(name string) string {
 	return b.String()
 }
 
+// plainTicks are gonum's default ticks labelled without trailing zeros: 25, not 25.00.
+type plainTicks struct{}
+
+func (plainTicks) Ticks(lo, hi float64) []plot.Tick {
+	ts := plot.DefaultTicks{}.Ticks(lo, hi)
+	for i := range ts {
+		if ts[i].Label != "" {
+			ts[i].Label = strconv.FormatFloat(ts[i].Value, 'f', -1, 64)
+		}
+	}
+	return ts
+}
+
 func newPlot(title, x, y string) *plot.Plot {
 	p := plot.New()
+	p.X.Tick.Marker, p.Y.Tick.Marker = plainTicks{}, plainTicks{}
 	p.Title.Text = title
 	p.Title.TextStyle.Color = inkColor
 	p.X.Label.Text = x
@@ -262,6 +282,57 @@ func timeHist(name, dataset, what, unit string, h *Hist, schemes []Scheme) *Char
 	p.Y.Min, p.Y.Max = 0, ymax
 	p.X.Min, p.X.Max = 1, edges[len(edges)-1]
 	drawSchemes(p, schemes, 0, ymax, 1, edges[len(edges)-1])
+	return c
+}
+
+// linearHist is a histogram of a small integer quantity on a linear axis, bars of
+// width w values, in percent of all values. lo and hi < 0 mean: from the data (the
+// 0.5th and 99.5th percentiles, widened a little).
+func linearHist(name, dataset, kind, what, unit string, h *Hist, lo, hi, w int64) *Chart {
+	c := &Chart{Name: name, Dataset: dataset, Kind: kind, Style: "hist", Title: dataset + ": " + what}
+	p := newPlot(c.Title, unit, "% of values")
+	c.p = p
+	if h == nil || h.N == 0 {
+		c.Caption = "No values."
+		p.X.Min, p.X.Max = 0, 1
+		return c
+	}
+	if lo < 0 {
+		q, _ := h.Quantile(0.005)
+		lo = max(q-5*w, h.Lo)
+	}
+	if hi < 0 {
+		q, _ := h.Quantile(0.995)
+		hi = max(q+5*w, lo+8*w)
+	}
+	hi = min(hi, h.Hi())
+	lo = lo - lo%w
+	var bins []plotter.HistogramBin
+	ymax := 0.0
+	var outside int64 = h.Under + h.Over
+	for v := h.Lo; v <= h.Hi(); v++ {
+		n := h.Counts[h.index(v)]
+		if v < lo || v > hi {
+			outside += n
+			continue
+		}
+		if k := (v - lo) / w; int(k) >= len(bins) {
+			b := float64(lo + k*w)
+			bins = append(bins, plotter.HistogramBin{Min: b - 0.5, Max: b + float64(w) - 0.5})
+		}
+		bins[len(bins)-1].Weight += 100 * float64(n) / float64(h.N)
+	}
+	for _, b := range bins {
+		ymax = max(ymax, b.Weight)
+	}
+	hist := &plotter.Histogram{Bins: bins, FillColor: barColor, LineStyle: draw.LineStyle{Color: color.White, Width: vg.Points(0.3)}}
+	p.Add(hist)
+	p.Legend.Add("share of values", hist)
+	if outside > 0 {
+		c.Caption = fmt.Sprintf("%.2f%% of the values lie outside %d..%d and are not drawn.", 100*float64(outside)/float64(h.N), lo, hi)
+	}
+	p.Y.Min, p.Y.Max = 0, max(ymax*1.35, 1)
+	p.X.Min, p.X.Max = float64(lo)-0.5, float64(hi)+0.5
 	return c
 }
 

@@ -28,8 +28,8 @@ func TestChartsRender(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// Two datasets: five charts each, and two overlays.
-	if got, want := len(charts), 5*len(rep.Datasets)+2; got != want {
+	// Two datasets: eight charts each, and two overlays.
+	if got, want := len(charts), 8*len(rep.Datasets)+2; got != want {
 		t.Fatalf("%d charts, want %d", got, want)
 	}
 	dir := artifactDir(t)
@@ -76,8 +76,8 @@ func TestWriteHTMLSelfContained(t *testing.T) {
 		t.Fatal(err)
 	}
 	page := buf.String()
-	if n := strings.Count(page, `<svg class="chart"`); n != 12 {
-		t.Errorf("%d inline charts, want 12", n)
+	if n := strings.Count(page, `<svg class="chart"`); n != 18 {
+		t.Errorf("%d inline charts, want 18", n)
 	}
 	// Nothing may be fetched: no external scripts, styles, images or fonts.
 	for _, bad := range []string{"<script src", "<link", "<img", "@import", "url(http", `href="http`, `src="http`} {
