@@ -1,6 +1,10 @@
 package export
 
 import (
+	"archive/tar"
+	"archive/zip"
+	"bytes"
+	"compress/gzip"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -66,6 +70,7 @@ func TestReliability(t *testing.T) {
 	t.Run("hostile mixed", func(t *testing.T) { testHostileMixed(t, valid, hostile) })
 	t.Run("deterministic", func(t *testing.T) { testHostileDeterministic(t, valid, hostile) })
 	t.Run("foreign folder untouched", func(t *testing.T) { testForeignFolderUntouched(t, valid) })
+	t.Run("hostile archives", func(t *testing.T) { testHostileArchives(t, valid) })
 	t.Run("killed and resumed", func(t *testing.T) { testKilledAndResumed(t, valid, hostile) })
 	sameStates(t, "inputs", inputs, fileStates(t, root))
 }
@@ -338,6 +343,145 @@ func testForeignFolderUntouched(t *testing.T, valid ingest.Source) {
 			t.Error("exported into a regular file")
 		}
 		sameStates(t, "output file", before, fileStates(t, p))
+	})
+}
+
+// testHostileArchives exports a folder of hostile archives (unsafe names, links, an
+// entry over the size cap, a gzip bomb, an archive over the entry cap) beside good
+// entries, with the caps set in the config: every entry is listed once with its
+// reason, the good ones are exported, the dataset verifies, and nothing is written
+// outside the output folder: not beside it, not in the working directory, not into
+// the inputs.
+func testHostileArchives(t *testing.T, valid ingest.Source) {
+	var good [][]byte
+	for _, p := range inputFiles(t, valid.Path)[:3] {
+		data, err := os.ReadFile(filepath.Join(valid.Path, filepath.FromSlash(p)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		good = append(good, data)
+	}
+	zipOf := func(entries ...any) []byte { // name, data (nil: a symlink to /etc), ...
+		var buf bytes.Buffer
+		zw := zip.NewWriter(&buf)
+		for i := 0; i < len(entries); i += 2 {
+			h := &zip.FileHeader{Name: entries[i].(string), Method: zip.Deflate}
+			data, _ := entries[i+1].([]byte)
+			if data == nil {
+				h.SetMode(os.ModeSymlink | 0o777)
+				data = []byte("/etc")
+			}
+			w, err := zw.CreateHeader(h)
+			if err != nil {
+				t.Fatal(err)
+			}
+			w.Write(data)
+		}
+		if err := zw.Close(); err != nil {
+			t.Fatal(err)
+		}
+		return buf.Bytes()
+	}
+	var tarBuf bytes.Buffer
+	tw := tar.NewWriter(&tarBuf)
+	for _, e := range []struct {
+		name, link string
+		typ        byte
+		data       []byte
+	}{
+		{name: "../escape.mid", typ: tar.TypeReg, data: good[0]},
+		{name: "/abs.mid", typ: tar.TypeReg, data: good[0]},
+		{name: "sym.mid", typ: tar.TypeSymlink, link: "/etc/passwd"},
+		{name: "hard.mid", typ: tar.TypeLink, link: "ok.mid"},
+		{name: "ok.mid", typ: tar.TypeReg, data: good[2]},
+	} {
+		if err := tw.WriteHeader(&tar.Header{Name: e.name, Typeflag: e.typ, Linkname: e.link, Mode: 0o644, Size: int64(len(e.data))}); err != nil {
+			t.Fatal(err)
+		}
+		tw.Write(e.data)
+	}
+	tw.Close()
+	var gz bytes.Buffer
+	zw := gzip.NewWriter(&gz)
+	zw.Write(make([]byte, 8<<20))
+	zw.Close()
+	var many []any
+	for i := range 6 {
+		many = append(many, fmt.Sprintf("%d.mid", i), good[0])
+	}
+	base := t.TempDir()
+	in, out := filepath.Join(base, "in"), filepath.Join(base, "out")
+	os.MkdirAll(in, 0o755)
+	for name, data := range map[string][]byte{
+		"evil.zip":    zipOf("../../escape.mid", good[0], "/abs.mid", good[0], "lnk", nil, "zeros.mid", make([]byte, 4<<20), "ok.mid", good[1]),
+		"evil.tar":    tarBuf.Bytes(),
+		"bomb.mid.gz": gz.Bytes(),
+		"many.zip":    zipOf(many...),
+	} {
+		if err := os.WriteFile(filepath.Join(in, name), data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	cwd, _ := os.Getwd()
+	cwdBefore, _ := os.ReadDir(cwd)
+	inputs := fileStates(t, in)
+	cfg := smallConfig()
+	cfg.Input.MaxFileMB = 1
+	cfg.Input.MaxEntryMB = 2
+	cfg.Input.MaxArchiveEntries = 5
+	m, err := Run(context.Background(), []ingest.Source{{Path: in, Dataset: "in"}}, cfg, Options{Out: out, Workers: 2, ToolVersion: "test"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	mustVerify(t, out)
+	type entry struct{ Source, Status, Class string }
+	var got []entry
+	for _, f := range m.Files {
+		e := entry{f.Source, f.Status, ""}
+		for _, sentinel := range []error{ingest.ErrUnsafePath, ingest.ErrLinkEntry, ingest.ErrEntryTooLarge, ingest.ErrTooLarge, ingest.ErrTooManyEntries} {
+			if strings.Contains(f.Reason, sentinel.Error()) {
+				e.Class = sentinel.Error()
+				break
+			}
+		}
+		if f.Status == "skipped" && !strings.Contains(f.Reason, strings.TrimSuffix(f.Source, "/")) {
+			t.Errorf("%s: reason %q does not name it", f.Source, f.Reason)
+		}
+		got = append(got, e)
+	}
+	unsafe, link := ingest.ErrUnsafePath.Error(), ingest.ErrLinkEntry.Error()
+	want := []entry{
+		{"bomb.mid.gz", "skipped", ingest.ErrTooLarge.Error()},
+		{"evil.tar/../escape.mid", "skipped", unsafe},
+		{"evil.tar//abs.mid", "skipped", unsafe},
+		{"evil.tar/hard.mid", "skipped", link},
+		{"evil.tar/ok.mid", "ok", ""},
+		{"evil.tar/sym.mid", "skipped", link},
+		{"evil.zip/../../escape.mid", "skipped", unsafe},
+		{"evil.zip//abs.mid", "skipped", unsafe},
+		{"evil.zip/lnk", "skipped", link},
+		{"evil.zip/ok.mid", "ok", ""},
+		{"evil.zip/zeros.mid", "skipped", ingest.ErrEntryTooLarge.Error()},
+		{"many.zip", "skipped", ingest.ErrTooManyEntries.Error()},
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("manifest entries\n%+v\nwant\n%+v", got, want)
+	}
+	if m.Totals.Windows == 0 {
+		t.Error("the good entries gave no rows")
+	}
+	if ents, _ := os.ReadDir(base); len(ents) != 2 {
+		t.Errorf("%d entries beside the output folder, want only in and out", len(ents))
+	}
+	if after, _ := os.ReadDir(cwd); len(after) != len(cwdBefore) {
+		t.Errorf("the working directory changed: %d entries, then %d", len(cwdBefore), len(after))
+	}
+	sameStates(t, "inputs", inputs, fileStates(t, in))
+	filepath.WalkDir(out, func(p string, d fs.DirEntry, err error) error {
+		if err == nil && !d.IsDir() && !strings.HasSuffix(d.Name(), ".parquet") && d.Name() != ManifestName {
+			t.Errorf("output folder holds %s", p)
+		}
+		return nil
 	})
 }
 
