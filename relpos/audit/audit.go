@@ -267,7 +267,7 @@ func (a *Auditor) addPiece(seq int64, dataset, path string, p *ingest.Piece) err
 
 	d.pieces++
 	d.noteN += int64(f.Notes)
-	d.drums += int64(f.DrumShare*float64(f.Notes) + 0.5)
+	d.drums += int64(f.drums)
 	d.ms += msOf(f.Seconds)
 	d.windows += int64(f.Windows)
 	d.grids[f.Grid.Label]++

@@ -129,6 +129,7 @@ func addNotes(p *ingest.Piece, s *noteStats, sc *pieceScratch, rng TempoRange, f
 			s.Tempo.Add(roundBPM(bpm))
 		}
 	}
+	f.drums = drums
 	if len(notes) > 0 {
 		f.DrumShare = float64(drums) / float64(len(notes))
 		for i := range notes {

@@ -187,6 +187,7 @@ type File struct {
 	DPDivergence JSONFloat `json:"dp_divergence"`
 
 	seq    int64
+	drums  int
 	dtBins []int64
 	dpBins []int64
 	ioi    []int64
