@@ -81,12 +81,17 @@ func Merge(ctx context.Context, partDirs []string, opt MergeOptions) (*Manifest,
 	pieceSeen := map[string]bool{}
 	var shards []Shard
 	var prog Progress
+	paths := map[string]bool{}
 	for _, pi := range order {
 		pm := parts[pi]
 		for _, sh := range pm.Shards {
 			if err := ctx.Err(); err != nil {
 				return nil, err
 			}
+			if paths[sh.Path] {
+				return nil, fmt.Errorf("merge: shard %s is listed by two parts", sh.Path)
+			}
+			paths[sh.Path] = true
 			src, err := localPath(partDirs[pi], sh.Path)
 			if err != nil {
 				return nil, fmt.Errorf("merge: part %s: %w", partDirs[pi], err)

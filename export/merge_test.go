@@ -3,6 +3,7 @@ package export
 import (
 	"context"
 	"fmt"
+	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -65,6 +66,54 @@ func TestMergeEqualsSingleRun(t *testing.T) {
 	if g.Windows != w.Windows || g.Tokens != w.Tokens || g.Pieces != w.Pieces || g.Files != w.Files || g.FilesSkipped != w.FilesSkipped {
 		t.Errorf("merged totals %+v, want %+v", g, w)
 	}
+
+	t.Run("interrupted and rerun", func(t *testing.T) {
+		dir := filepath.Join(t.TempDir(), "m")
+		ctx, cancel := context.WithCancel(context.Background())
+		_, err := Merge(ctx, dirs, MergeOptions{Out: dir, Progress: func(p Progress) {
+			if p.Shards == 2 {
+				cancel()
+			}
+		}})
+		if err == nil {
+			t.Fatal("merge cancelled after two shards succeeded")
+		}
+		if _, err := ReadManifest(dir); err == nil {
+			t.Fatal("an interrupted merge left a manifest")
+		}
+		if _, err := Merge(context.Background(), dirs, MergeOptions{Out: dir}); err != nil {
+			t.Fatal(err)
+		}
+		mustVerify(t, dir)
+		if d := diffTrees(treeHashes(t, out), treeHashes(t, dir)); len(d) > 0 {
+			t.Errorf("rerun merge differs from an uninterrupted one: %v", d)
+		}
+	})
+
+	t.Run("piece in two parts", func(t *testing.T) {
+		// Part 1 again, relabelled as part 2: every piece of it is then in two parts.
+		fake := filepath.Join(t.TempDir(), "fake2")
+		m, err := ReadManifest(dirs[0])
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, sh := range m.Shards {
+			data, err := os.ReadFile(filepath.Join(dirs[0], filepath.FromSlash(sh.Path)))
+			if err != nil {
+				t.Fatal(err)
+			}
+			sh.Path = strings.Replace(sh.Path, "-p1-", "-p2-", 1)
+			os.MkdirAll(filepath.Join(fake, sh.Split), 0o755)
+			os.WriteFile(filepath.Join(fake, filepath.FromSlash(sh.Path)), data, 0o644)
+			m.Shards[i] = sh
+		}
+		m.Part.Index = 2
+		rewriteManifest(t, fake, m)
+		_, err = Merge(context.Background(), []string{dirs[0], fake, dirs[2]}, MergeOptions{Out: filepath.Join(t.TempDir(), "m")})
+		if err == nil || !strings.Contains(err.Error(), "in part 1 and part 2") {
+			t.Errorf("err %v, want a piece in part 1 and part 2", err)
+		}
+	})
 
 	t.Run("refuses", func(t *testing.T) {
 		cases := []struct {
