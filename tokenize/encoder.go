@@ -67,6 +67,8 @@ type Encoder struct {
 	vocab    *Vocab
 	variants []Variant
 	clock    clock
+	// dropDrums is cfg.Drums == DrumsDrop, compared once instead of per note.
+	dropDrums bool
 
 	pnotes []pnote
 	offs   []pendingOff
@@ -83,7 +85,7 @@ func NewEncoder(cfg Config) (*Encoder, error) {
 	if err != nil {
 		return nil, err
 	}
-	e := &Encoder{cfg: cfg, vocab: v}
+	e := &Encoder{cfg: cfg, vocab: v, dropDrums: cfg.Drums == DrumsDrop}
 	e.variants = append(e.variants, Identity)
 	stretch := cfg.Stretch
 	if len(stretch) == 0 {

@@ -137,7 +137,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		return dst, st, errStreamTooLong()
 	}
 	start := len(dst)
-	dst = append(dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
+	dst = put(dst, BeginID, 0, 0, -1, -1)
 	meterID := voc.meterID[[2]int{4, 4}]
 	barLen := int64(4 * e.cfg.GridPerQuarter)
 	prevMeter, prevTempo := int32(-1), int32(-1)
@@ -164,22 +164,22 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		}
 		bt := int32(barStart)
 		bms := e.msOfStep(barStart)
-		dst = append(dst, Token{ID: voc.barID, Time: bt, MS: bms, Pitch: -1, Inst: -1})
+		dst = put(dst, voc.barID, bt, bms, -1, -1)
 		if meterID != prevMeter {
-			dst = append(dst, Token{ID: meterID, Time: bt, MS: bms, Pitch: -1, Inst: -1})
+			dst = put(dst, meterID, bt, bms, -1, -1)
 			prevMeter = meterID
 		}
 		us := e.clock.usPerQuarterAt(float64(barStart) * e.clock.tpq / float64(e.cfg.GridPerQuarter))
 		tempoID := voc.tempoBase + int32(voc.tempoBin(60e6/us))
 		if tempoID != prevTempo {
-			dst = append(dst, Token{ID: tempoID, Time: bt, MS: bms, Pitch: -1, Inst: -1})
+			dst = put(dst, tempoID, bt, bms, -1, -1)
 			prevTempo = tempoID
 		}
 		barEnd := barStart + barLen
 		for ni < len(notes) && notes[ni].step < barEnd {
 			s := notes[ni].step
 			t, ms := int32(s), e.msOfStep(s)
-			dst = append(dst, Token{ID: voc.posBase + int32(s-barStart), Time: t, MS: ms, Pitch: -1, Inst: -1})
+			dst = put(dst, voc.posBase+int32(s-barStart), t, ms, -1, -1)
 			h := ni
 			for h < len(notes) && notes[h].step == s {
 				h++
@@ -194,13 +194,12 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			for _, k := range keys {
 				inst, pitch, dur, vel := unpackGrid(k)
 				if inst != curInst {
-					dst = append(dst, Token{ID: instID(voc, inst), Time: t, MS: ms, Pitch: -1, Inst: inst})
+					dst = put(dst, instID(voc, inst), t, ms, -1, inst)
 					curInst = inst
 				}
-				dst = append(dst,
-					Token{ID: voc.pitchBase + int32(pitch), Time: t, MS: ms, Pitch: int16(pitch), Inst: inst},
-					Token{ID: voc.durBase + dur - 1, Time: t, MS: ms, Pitch: -1, Inst: inst},
-					Token{ID: voc.velBase + int32(vel), Time: t, MS: ms, Pitch: -1, Inst: inst})
+				dst = put(dst, voc.pitchBase+int32(pitch), t, ms, int16(pitch), inst)
+				dst = put(dst, voc.durBase+dur-1, t, ms, -1, inst)
+				dst = put(dst, voc.velBase+int32(vel), t, ms, -1, inst)
 			}
 		}
 		barStart = barEnd
@@ -209,7 +208,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		}
 	}
 	last := dst[len(dst)-1]
-	dst = append(dst, Token{ID: EndID, Time: last.Time, MS: last.MS, Pitch: -1, Inst: -1})
+	dst = put(dst, EndID, last.Time, last.MS, -1, -1)
 	st.Tokens = len(dst) - start
 	return dst, st, nil
 }

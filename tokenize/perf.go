@@ -42,28 +42,34 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	voc := e.vocab
 	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
 		heap: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
+	o.dst = put(o.dst, BeginID, 0, 0, -1, -1)
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS) // seconds to steps
+	// The next note is quantized straight into the slot after the group, so it is
+	// never copied: a note of the next onset then moves to the group's start.
 	group := e.pnotes[:0]
-	var pn pnote
 	for i := range p.Notes {
-		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, &pn) {
+		group = append(group, pnote{})
+		pn := &group[len(group)-1]
+		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, pn) {
 		case qSkip:
+			group = group[:len(group)-1]
 			continue
 		case qBad:
+			e.pnotes = group
 			return dst, st, e.quantizeError(&p.Notes[i], i)
 		}
-		if len(group) > 0 && pn.on != group[0].on {
-			if pn.on < group[0].on {
+		if on := pn.on; len(group) > 1 && on != group[0].on {
+			if on < group[0].on {
 				e.pnotes = group
 				return e.encodePerformanceUnsorted(p, v, dst)
 			}
-			if err := e.emitGroup(&o, group, &st); err != nil {
+			if err := e.emitGroup(&o, group[:len(group)-1], &st); err != nil {
+				e.pnotes = group
 				return o.dst, st, err
 			}
-			group = group[:0]
+			group[0] = group[len(group)-1]
+			group = group[:1]
 		}
-		group = append(group, pn)
 	}
 	e.pnotes = group
 	return e.finishPerformance(&o, group, &st)
@@ -76,16 +82,17 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	voc := e.vocab
 	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
 		heap: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	o.dst = append(o.dst, Token{ID: BeginID, Pitch: -1, Inst: -1})
+	o.dst = put(o.dst, BeginID, 0, 0, -1, -1)
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS)
 	notes := e.pnotes[:0]
-	var pn pnote
 	for i := range p.Notes {
-		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, &pn) {
+		notes = append(notes, pnote{})
+		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, &notes[len(notes)-1]) {
 		case qBad:
+			e.pnotes = notes
 			return dst, st, e.quantizeError(&p.Notes[i], i)
-		case qOK:
-			notes = append(notes, pn)
+		case qSkip:
+			notes = notes[:len(notes)-1]
 		}
 	}
 	slices.SortStableFunc(notes, func(a, b pnote) int { return cmp.Compare(a.on, b.on) })
@@ -109,10 +116,11 @@ const (
 	qBad         // invalid times: quantizeError says why
 )
 
-// quantize turns one note into shift steps in *out.
+// quantize turns one note into shift steps in *out. It stores field by field, for
+// the reason put does.
 func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Stats, out *pnote) int {
 	if n.Drum {
-		if e.cfg.Drums == DrumsDrop {
+		if e.dropDrums {
 			st.DrumsDropped++
 			return qSkip
 		}
@@ -121,7 +129,7 @@ func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Sta
 			return qBad
 		}
 		s := int64(math.Round(on))
-		*out = pnote{on: s, off: s, pitch: n.Pitch, vel: e.vocab.velBins[n.Velocity&127], drum: true, inst: InstDrums}
+		out.on, out.off, out.pitch, out.vel, out.drum, out.inst = s, s, n.Pitch, e.vocab.velBins[n.Velocity&127], true, InstDrums
 		return qOK
 	}
 	pitch := int(n.Pitch) + transpose
@@ -133,8 +141,8 @@ func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Sta
 	if !(on >= 0) || !(off >= on) || off*float64(e.cfg.ShiftMS) > maxMS {
 		return qBad
 	}
-	*out = pnote{on: int64(math.Round(on)), off: int64(math.Round(off)), pitch: uint8(pitch),
-		vel: e.vocab.velBins[n.Velocity&127], inst: int16(n.Program)}
+	out.on, out.off, out.pitch = int64(math.Round(on)), int64(math.Round(off)), uint8(pitch)
+	out.vel, out.drum, out.inst = e.vocab.velBins[n.Velocity&127], false, int16(n.Program)
 	return qOK
 }
 
@@ -159,7 +167,7 @@ func (e *Encoder) finishPerformance(o *perfOut, last []pnote, st *Stats) ([]Toke
 	e.offs = o.heap
 	st.Encoded = st.Notes - st.DrumsDropped - st.OutOfRange - st.Merged
 	ms := int32(o.cur * o.shiftMS)
-	o.dst = append(o.dst, Token{ID: EndID, Time: ms, MS: ms, Pitch: -1, Inst: -1})
+	o.dst = put(o.dst, EndID, ms, ms, -1, -1)
 	st.Tokens = len(o.dst) - o.start
 	return o.dst, *st, nil
 }
@@ -211,13 +219,13 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 		n := &group[uint32(key)]
 		if int(n.vel) != vel {
 			vel = int(n.vel)
-			d = append(d, Token{ID: voc.velBase + int32(n.vel), Time: ms, MS: ms, Pitch: -1, Inst: -1})
+			d = put(d, voc.velBase+int32(n.vel), ms, ms, -1, -1)
 		}
 		id := voc.onBase + int32(n.pitch)
 		if n.drum {
 			id = voc.hitBase + int32(n.pitch)
 		}
-		d = append(d, Token{ID: id, Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+		d = put(d, id, ms, ms, int16(n.pitch), n.inst)
 	}
 	for _, key := range kept {
 		n := &group[uint32(key)]
@@ -226,7 +234,7 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 		}
 		o.keyOff[n.pitch] = n.off
 		if n.off == n.on {
-			d = append(d, Token{ID: voc.offBase + int32(n.pitch), Time: ms, MS: ms, Pitch: int16(n.pitch), Inst: n.inst})
+			d = put(d, voc.offBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
 		} else {
 			o.heap = pushOff(o.heap, pendingOff{step: n.off, pitch: n.pitch, inst: n.inst})
 		}
@@ -290,7 +298,7 @@ func (o *perfOut) advance(to int64) bool {
 		o.cur += n
 		gap -= n
 		ms := int32(o.cur * o.shiftMS)
-		d = append(d, Token{ID: o.shiftBase + int32(n) - 1, Time: ms, MS: ms, Pitch: -1, Inst: -1})
+		d = put(d, o.shiftBase+int32(n)-1, ms, ms, -1, -1)
 	}
 	o.dst = d
 	return true
@@ -305,7 +313,7 @@ func (o *perfOut) offsUpTo(step int64) bool {
 			return false
 		}
 		ms := int32(o.cur * o.shiftMS)
-		o.dst = append(o.dst, Token{ID: o.offBase + int32(off.pitch), Time: ms, MS: ms, Pitch: int16(off.pitch), Inst: off.inst})
+		o.dst = put(o.dst, o.offBase+int32(off.pitch), ms, ms, int16(off.pitch), off.inst)
 	}
 	return true
 }

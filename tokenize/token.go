@@ -30,3 +30,14 @@ type Window struct {
 	Prefix int
 	Start  int // index in the variant's stream of Tokens[Prefix]
 }
+
+// put appends one token to d. It appends a zero token and then stores the fields
+// into it: an appended struct literal is built on the stack and copied with one wide
+// load right after its narrow stores, which stalls store forwarding and cost more
+// than the rest of the encoder's per-token work.
+func put(d []Token, id, time, ms int32, pitch, inst int16) []Token {
+	d = append(d, Token{})
+	t := &d[len(d)-1]
+	t.ID, t.Time, t.MS, t.Pitch, t.Inst = id, time, ms, pitch, inst
+	return d
+}
