@@ -6,7 +6,9 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"time"
 
+	"github.com/schollz/progressbar/v3"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 
@@ -82,7 +84,18 @@ func (o *auditOptions) Validate(cmd *cobra.Command) error {
 }
 
 func runAudit(ctx context.Context, o *auditOptions, s *streams) error {
-	rep, err := audit.Run(ctx, o.corpus.sourceList(), o.cfg)
+	cfg := o.cfg
+	var bar *progressbar.ProgressBar
+	if s.ErrIsTerminal {
+		bar = progressbar.NewOptions64(-1, progressbar.OptionSetWriter(s.Err), progressbar.OptionSetDescription("auditing"),
+			progressbar.OptionShowCount(), progressbar.OptionSetItsString("files"),
+			progressbar.OptionThrottle(100*time.Millisecond), progressbar.OptionClearOnFinish())
+		cfg.Progress = func(files int64) { _ = bar.Set64(files) }
+	}
+	rep, err := audit.Run(ctx, o.corpus.sourceList(), cfg)
+	if bar != nil {
+		_ = bar.Finish()
+	}
 	if err != nil {
 		return &exitError{code: exitFailed, err: err}
 	}

@@ -29,6 +29,9 @@ type Config struct {
 	ByFolder bool
 	// Workers audit pieces in parallel in Run; 0 means one per core.
 	Workers int
+	// Progress, when set, is called by Run after each input file is read, with the
+	// number of files so far, from one goroutine.
+	Progress func(files int64) `json:"-"`
 }
 
 // OutlierConfig decides which files are listed as outliers.

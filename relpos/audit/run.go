@@ -61,6 +61,9 @@ func Run(ctx context.Context, sources []ingest.Source, cfg Config) (*Report, err
 			ds := datasetOf(&r.Record, byFolder)
 			records.AddRecord(ds, &r.Record)
 			seq++
+			if cfg.Progress != nil {
+				cfg.Progress(seq)
+			}
 			if len(r.Pieces) == 0 {
 				return nil
 			}
