@@ -203,6 +203,41 @@ func TestExportCommand(t *testing.T) {
 	}
 }
 
+// TestExportConfigFile checks the precedence defaults < config file < flags.
+func TestExportConfigFile(t *testing.T) {
+	corpus := demoCorpus(t)
+	dir := t.TempDir()
+	cfgPath := filepath.Join(dir, "relshard.yaml")
+	os.WriteFile(cfgPath, []byte(`
+tokens:
+  max_len: 96
+  min_len: 4
+shards:
+  rows: 25
+  compression: snappy
+licenses:
+  demo: from the file
+`), 0o644)
+	out := filepath.Join(dir, "ds")
+	code, _, stderr := runCmd(t, "export", "demo="+corpus, "--out", out, "--config", cfgPath, "--shard-rows", "50", "--license", "demo=from the flag")
+	if code != exitSkipped {
+		t.Fatalf("exit %d\n%s", code, stderr)
+	}
+	m, err := export.ReadManifest(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := []any{m.Config.Tokens.MaxLen, m.Config.Tokens.MinLen, m.Config.Shards.Rows, m.Config.Shards.Compression, m.Licenses["demo"]}
+	want := []any{96, 4, int64(50), "snappy", "from the flag"}
+	if fmt.Sprint(got) != fmt.Sprint(want) {
+		t.Errorf("max_len, min_len, rows, compression, licence = %v, want %v", got, want)
+	}
+	os.WriteFile(cfgPath, []byte("tokens:\n  max_len: lots\n"), 0o644)
+	if code, _, stderr := runCmd(t, "export", corpus, "--out", filepath.Join(dir, "x"), "--config", cfgPath); code != exitUsage || !strings.Contains(stderr, "relshard.yaml") {
+		t.Errorf("bad config: exit %d, stderr %q", code, stderr)
+	}
+}
+
 func TestExportUsageErrors(t *testing.T) {
 	corpus := demoCorpus(t)
 	out := t.TempDir()
@@ -253,6 +288,7 @@ func TestResolvePart(t *testing.T) {
 		{name: "slurm from 0", flag: "auto", env: env("SLURM_ARRAY_TASK_ID", "0", "SLURM_ARRAY_TASK_MIN", "0", "SLURM_ARRAY_TASK_COUNT", "3"), want: export.Part{Index: 1, Count: 3}},
 		{name: "slurm count from flag", flag: "auto", parts: 2, env: env("SLURM_ARRAY_TASK_ID", "1", "SLURM_ARRAY_TASK_MIN", "0"), want: export.Part{Index: 2, Count: 2}},
 		{name: "slurm stepped", flag: "auto", env: env("SLURM_ARRAY_TASK_ID", "2", "SLURM_ARRAY_TASK_MIN", "0", "SLURM_ARRAY_TASK_COUNT", "2", "SLURM_ARRAY_TASK_STEP", "2"), wantErr: "step"},
+		{name: "slurm listed ids", flag: "auto", env: env("SLURM_ARRAY_TASK_ID", "5", "SLURM_ARRAY_TASK_MIN", "1", "SLURM_ARRAY_TASK_COUNT", "3"), wantErr: "1 ≤ I ≤ N"},
 		{name: "auto without scheduler", flag: "auto", env: env(), wantErr: "neither"},
 		{name: "parts without auto", parts: 3, env: env(), wantErr: "--parts needs"},
 	}
