@@ -65,6 +65,16 @@ func prepareOut(dir string, mk marker, overwrite bool) error {
 			return err
 		}
 	}
+	if err := writeMarker(dir, mk); err != nil {
+		return err
+	}
+	return removeTemps(dir)
+}
+
+// writeMarker marks dir as owned by the run of mk. It comes before anything of a
+// previous run is removed, so that a kill at any moment leaves either a complete
+// dataset or a marked folder that a rerun takes as its own.
+func writeMarker(dir string, mk marker) error {
 	data, err := json.MarshalIndent(mk, "", "  ")
 	if err != nil {
 		return err
@@ -72,7 +82,7 @@ func prepareOut(dir string, mk marker, overwrite bool) error {
 	if err := writeFileAtomic(filepath.Join(dir, MarkerName), append(data, '\n')); err != nil {
 		return fmt.Errorf("write run marker: %w", err)
 	}
-	return removeTemps(dir)
+	return nil
 }
 
 func claimFolder(dir string, mk marker, overwrite bool) error {
@@ -82,12 +92,16 @@ func claimFolder(dir string, mk marker, overwrite bool) error {
 		if err != nil {
 			return fmt.Errorf("%w: %s holds a %s that cannot be read (%v); not touching it", ErrFolderInUse, dir, ManifestName, err)
 		}
-		if m.ConfigHash == mk.ConfigHash && samePart(m.Part, mk.Part) {
-			return os.Remove(manifestPath)
-		}
-		if !overwrite {
+		same := m.ConfigHash == mk.ConfigHash && samePart(m.Part, mk.Part)
+		if !same && !overwrite {
 			return fmt.Errorf("%w: %s holds a dataset made with another config (hash %s, part %s; this run: %s, part %s); use --overwrite to replace it",
 				ErrFolderInUse, dir, short(m.ConfigHash), partText(m.Part), short(mk.ConfigHash), partText(mk.Part))
+		}
+		if err := writeMarker(dir, mk); err != nil {
+			return err
+		}
+		if same {
+			return os.Remove(manifestPath)
 		}
 		return removeDataset(dir, m)
 	}
@@ -113,6 +127,9 @@ func claimFolder(dir string, mk marker, overwrite bool) error {
 	}
 	// An unfinished run has no manifest listing its files: remove exactly the
 	// files that its naming scheme could have made.
+	if err := writeMarker(dir, mk); err != nil {
+		return err
+	}
 	return removeShardFiles(dir, nil)
 }
 
