@@ -721,3 +721,28 @@ func TestResumeAfterKillInMarker(t *testing.T) {
 	}
 	sameStates(t, "foreign folder", before, fileStates(t, other))
 }
+
+// TestRerunKeepsDatasetUntilMarked: a rerun of the same config must mark the folder
+// as its own before it removes the previous manifest; otherwise a kill between the
+// two leaves shards with neither a manifest nor a marker, a folder every later run
+// refuses as foreign. The kill is simulated by making the marker unwritable (a
+// folder in the way of its temporary file): the previous dataset must still verify.
+func TestRerunKeepsDatasetUntilMarked(t *testing.T) {
+	files := synthFiles(12)
+	dir := t.TempDir()
+	writeSynth(t, dir, 1, files)
+	want := treeHashes(t, dir)
+	block := filepath.Join(dir, MarkerName+TempSuffix)
+	if err := os.Mkdir(block, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := writeOutput(context.Background(), synthSpec(dir, 1), feedOf(files), noCoverage); err == nil {
+		t.Fatal("the rerun wrote its marker through a folder")
+	}
+	os.Remove(block)
+	mustVerify(t, dir)
+	writeSynth(t, dir, 2, files)
+	if d := diffTrees(want, treeHashes(t, dir)); len(d) > 0 {
+		t.Errorf("files differ from the first run: %v", d)
+	}
+}
