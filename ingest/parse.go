@@ -136,23 +136,34 @@ func (ps *parser) readTrack() {
 	name := ""
 	named := false
 	ev := r.Event()
-	for r.Next() {
-		if ev.Kind == KindChannel {
-			switch ev.Status & statusTypeMask {
+	for {
+		status, d1, d2, ok := r.nextChannel()
+		if !ok {
+			if !r.Next() {
+				break
+			}
+			if ev.Kind == KindChannel {
+				status, d1, d2 = ev.Status, ev.Data1, ev.Data2
+				ok = true
+			}
+		}
+		if ok {
+			ch := status & statusChannelMask
+			switch status & statusTypeMask {
 			case statusNoteOn:
-				if ev.Data2 != 0 {
-					pr.noteOn(ev.Status&statusChannelMask, ev.Data1, ev.Data2, ev.Tick)
+				if d2 != 0 {
+					pr.noteOn(ch, d1, d2, r.tick)
 				} else {
-					pr.noteOff(ev.Status&statusChannelMask, ev.Data1, ev.Tick)
+					pr.noteOff(ch, d1, r.tick)
 				}
 			case statusNoteOff:
-				pr.noteOff(ev.Status&statusChannelMask, ev.Data1, ev.Tick)
+				pr.noteOff(ch, d1, r.tick)
 			case statusControl:
-				if ev.Data1 == ccSustain {
-					pr.sustain(ev.Status&statusChannelMask, ev.Data2, ev.Tick)
+				if d1 == ccSustain {
+					pr.sustain(ch, d2, r.tick)
 				}
 			case statusProgram:
-				ps.progs = append(ps.progs, progChange{tick: ev.Tick, channel: ev.Status & statusChannelMask, program: ev.Data1})
+				ps.progs = append(ps.progs, progChange{tick: r.tick, channel: ch, program: d1})
 			}
 			continue
 		}

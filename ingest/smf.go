@@ -468,6 +468,65 @@ func (r *Reader) Next() bool {
 	return true
 }
 
+// nextChannel is Next for the common event, a channel message after a delta time of
+// one or two bytes, wholly inside the chunk: it returns the status (running status
+// resolved) and data bytes without filling Event. Anything else, every error
+// included, gives ok false with nothing changed, for Next to read. Parse calls it
+// before Next for each event; the Reader's state after it is what Next leaves.
+func (r *Reader) nextChannel() (status, d1, d2 byte, ok bool) {
+	p := r.pos
+	d := r.data[:r.end]
+	// five bytes: the longest event taken here (two delta bytes, status, two data bytes)
+	if len(d)-p < 5 || r.events >= r.maxEvents {
+		return 0, 0, 0, false
+	}
+	delta := uint32(d[p])
+	p++
+	if delta >= vlqMore {
+		b := d[p]
+		if b >= vlqMore {
+			return 0, 0, 0, false
+		}
+		delta = (delta&^vlqMore)<<7 | uint32(b)
+		p++
+	}
+	status = d[p]
+	running := status < statusBit
+	if running {
+		if r.running == 0 {
+			return 0, 0, 0, false
+		}
+		status = r.running
+	} else {
+		if status >= statusSysEx {
+			return 0, 0, 0, false
+		}
+		p++
+	}
+	d1 = d[p]
+	if typ := status & statusTypeMask; typ == statusProgram || typ == statusChanTouch {
+		if d1 >= statusBit {
+			return 0, 0, 0, false
+		}
+		p++
+	} else {
+		d2 = d[p+1]
+		if (d1|d2)&statusBit != 0 {
+			return 0, 0, 0, false
+		}
+		p += 2
+	}
+	if running && r.cancel {
+		r.RunningAfterMeta++
+	}
+	r.cancel = false
+	r.running = status
+	r.tick += int64(delta)
+	r.pos = p
+	r.events++
+	return status, d1, d2, true
+}
+
 // length reads a VLQ length at p and checks that many bytes remain before end. It
 // returns the length and the offset of the payload.
 func (r *Reader) length(p, end int) (n, q int, ok bool) {
