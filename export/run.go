@@ -237,7 +237,11 @@ func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest
 // its rows are kept.
 func (p *pipeline) process(enc *tokenize.Encoder, cw *coverageWorker, r *ingest.Result) (fileResult, error) {
 	rec := &r.Record
-	fr := fileResult{entry: FileEntry{Dataset: rec.Dataset, Source: rec.Path, Status: string(rec.Status), Reason: rec.Reason}}
+	source := rec.Path
+	if source == "" {
+		source = rec.Source // a whole source that could not be read
+	}
+	fr := fileResult{entry: FileEntry{Dataset: rec.Dataset, Source: source, Status: string(rec.Status), Reason: rec.Reason}}
 	if rec.Status == ingest.StatusSkipped {
 		fr.entry.Class = ingest.ReasonClass(r.Err)
 	}

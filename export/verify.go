@@ -265,6 +265,12 @@ func (v *verifier) checkRow(sh Shard, rw *Row, row int64, part string, bad func(
 			break
 		}
 	}
+	for i := 1; i < len(rw.Time); i++ {
+		if rw.Time[i] < rw.Time[i-1] {
+			bad(row, "token %d: time %d before the previous token's %d", i, rw.Time[i], rw.Time[i-1])
+			break
+		}
+	}
 	for i, p := range rw.Pitch {
 		if p < -1 || p > 127 {
 			bad(row, "token %d: pitch %d outside -1..127", i, p)

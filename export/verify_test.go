@@ -60,6 +60,24 @@ func TestVerifyCatchesDamage(t *testing.T) {
 			m.Config.Shards.Compression = CompressionNone
 			rewriteManifest(t, dir, m)
 		}, "does not match the config"},
+		{"time running backwards", func(t *testing.T, dir string, m *Manifest) {
+			var rows []Row
+			for _, f := range files {
+				rows = append(rows, f.rows...)
+			}
+			r := rows[0]
+			r.Time = append([]int32{}, r.Time...)
+			r.Time[1], r.Time[2] = r.Time[2], r.Time[1]
+			os.MkdirAll(filepath.Join(dir, r.Split), 0o755)
+			rel := r.Split + "/" + r.Split + "-000100.parquet"
+			sh, err := WriteShard(filepath.Join(dir, rel), []Row{r}, ShardOptions{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			sh.Path = rel
+			m.Shards = append(m.Shards, sh)
+			rewriteManifest(t, dir, m)
+		}, "before the previous token"},
 		{"file listed twice", func(t *testing.T, dir string, m *Manifest) {
 			m.Files = append(m.Files, m.Files[0])
 			rewriteManifest(t, dir, m)
