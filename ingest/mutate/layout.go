@@ -9,12 +9,11 @@ import (
 // Manufacturers Association) and its RIFF RMID wrapping (Microsoft Multimedia
 // Programming Interface and Data Specifications 1.0).
 const (
-	chunkHeader = 8          // 4-byte id + 4-byte length (big-endian in SMF, little-endian in RIFF)
-	riffHeader  = 12         // "RIFF" <u32le size> "RMID"
-	vlqMax      = 0x0FFFFFFF // SMF 1.0: the largest variable-length quantity (four bytes)
-	metaStatus  = 0xFF       // FF <type> <len> <bytes>
-	sysExStatus = 0xF0       // F0 <len> <bytes>
-	escStatus   = 0xF7       // F7 <len> <bytes>
+	chunkHeader = 8    // 4-byte id + 4-byte length (big-endian in SMF, little-endian in RIFF)
+	riffHeader  = 12   // "RIFF" <u32le size> "RMID"
+	metaStatus  = 0xFF // FF <type> <len> <bytes>
+	sysExStatus = 0xF0 // F0 <len> <bytes>
+	escStatus   = 0xF7 // F7 <len> <bytes>
 )
 
 // chunk is one chunk of a file; offsets are absolute in the file.

@@ -352,7 +352,7 @@ func (m *maker) runningStatus() {
 	if evs, _ := m.allEvents(isChannel); len(evs) > 0 {
 		e := evs[m.rng.IntN(len(evs))]
 		d := m.clone()
-		d[e.status] = 0xF4 // undefined System Common status (MIDI 1.0)
+		d[e.status] = 0xF4 // an undefined System Common status in MIDI 1.0 (from memory; 0xF5 is the other)
 		m.add(OpRunningStatus, d, "status at byte %d replaced by the undefined 0xF4", e.status)
 	}
 }

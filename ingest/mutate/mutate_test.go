@@ -13,8 +13,8 @@ import (
 	"github.com/relshard/relshard/sampledata"
 )
 
-// specFormat0 is the format-0 example file of SMF 1.0 (appendix "MIDI File Example"),
-// as committed in ingest's testdata.
+// specFormat0 is the format-0 example file printed in SMF 1.0 (its appendix of example
+// files, from memory), as committed in ingest's testdata.
 func specFormat0(t testing.TB) []byte {
 	t.Helper()
 	data, err := os.ReadFile(filepath.Join("..", "testdata", "spec-format0.mid"))
@@ -25,8 +25,8 @@ func specFormat0(t testing.TB) []byte {
 }
 
 // TestWalkSpecExample checks the walker on the spec's example: a 14-byte header
-// chunk, one track chunk of 0x3B = 59 bytes holding 14 events (SMF 1.0, appendix
-// "MIDI File Example", format 0: its byte listing).
+// chunk, one track chunk of 0x3B = 59 bytes holding 14 events (SMF 1.0's format-0
+// example: its byte listing: 22 bytes of header chunk and track chunk header, then the events).
 func TestWalkSpecExample(t *testing.T) {
 	d := specFormat0(t)
 	l := walk(d)
