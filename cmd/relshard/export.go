@@ -368,6 +368,20 @@ func printSummary(s *streams, m *export.Manifest, dir string) error {
 		fmt.Fprintf(&b, "%-10s %8d pieces %10d windows %12d tokens %5d shards\n", sp, st.Pieces, st.Windows, st.Tokens, st.Shards)
 	}
 	fmt.Fprintf(&b, "config %s, encoding %s, vocabulary %d, time unit %s\n", m.ConfigHash[:12], m.Encoding, m.VocabSize, m.TimeUnit)
+	datasets := map[string]bool{}
+	for _, f := range m.Files {
+		datasets[f.Dataset] = true
+	}
+	for _, d := range slices.Sorted(maps.Keys(datasets)) {
+		if _, ok := m.Licenses[d]; !ok {
+			fmt.Fprintf(&b, "note: no licence recorded for dataset %s (--license %s=TEXT)\n", d, d)
+		}
+	}
+	for _, d := range slices.Sorted(maps.Keys(m.Licenses)) {
+		if !datasets[d] {
+			fmt.Fprintf(&b, "warning: a licence is given for dataset %s, but no input belongs to it\n", d)
+		}
+	}
 	_, err := fmt.Fprint(s.Out, b.String())
 	return err
 }
