@@ -185,8 +185,99 @@ func noteLess(a, b *rawNote) bool {
 // order, into dst (len(dst) == len(src)) by StartTick; ties keep run order, so dst
 // is in (StartTick, Track, Channel, Pitch) order. It is a heap merge that moves
 // whole stretches of a run at once: the root run may go on while it stays below
-// both children of the root.
+// both children of the root. The heap holds each run's next start tick and the run
+// index packed in one word, which orders like (tick, run) with one comparison; ticks
+// of 2^47 and more (only damaged or contrived files reach them) take mergeRunsWide.
 func mergeRuns(dst []Note, src []rawNote, bounds []int, em *emitter) {
+	nruns := len(bounds) - 1
+	if nruns > maxPackedRuns {
+		mergeRunsWide(dst, src, bounds, em)
+		return
+	}
+	var hBuf, endBuf [32]uint64
+	var posBuf [32]int
+	h, pos, end := hBuf[:0], posBuf[:0], endBuf[:0]
+	for i := range nruns {
+		a, b := bounds[i], bounds[i+1]
+		pos = append(pos, a)
+		end = append(end, uint64(b))
+		if a == b {
+			continue
+		}
+		if last := src[b-1].StartTick; last < 0 || last >= 1<<(64-packedRunBits) {
+			mergeRunsWide(dst, src, bounds, em)
+			return
+		}
+		h = append(h, uint64(src[a].StartTick)<<packedRunBits|uint64(i))
+	}
+	// runs are appended in run order with arbitrary ticks: heapify
+	for i := len(h)/2 - 1; i >= 0; i-- {
+		siftDownKeys(h, i)
+	}
+	out := 0
+	for len(h) > 1 {
+		run := int(h[0] & (maxPackedRuns - 1))
+		// the key to beat: the smaller child of the root
+		next := h[1]
+		if len(h) > 2 && h[2] < next {
+			next = h[2]
+		}
+		q, e := pos[run], int(end[run])
+		for {
+			em.put(&dst[out], &src[q])
+			out++
+			q++
+			if q == e || uint64(src[q].StartTick)<<packedRunBits|uint64(run) > next {
+				break
+			}
+		}
+		if q == e {
+			h[0] = h[len(h)-1]
+			h = h[:len(h)-1]
+		} else {
+			pos[run] = q
+			h[0] = uint64(src[q].StartTick)<<packedRunBits | uint64(run)
+		}
+		siftDownKeys(h, 0)
+	}
+	if len(h) == 1 {
+		run := int(h[0] & (maxPackedRuns - 1))
+		for q := pos[run]; q < int(end[run]); q++ {
+			em.put(&dst[out], &src[q])
+			out++
+		}
+	}
+}
+
+// Packed heap keys of mergeRuns: start tick above, run index in the low bits.
+const (
+	packedRunBits = 16 // an SMF header declares at most 65,535 tracks
+	maxPackedRuns = 1 << packedRunBits
+)
+
+// siftDownKeys restores the heap order of h below i.
+func siftDownKeys(h []uint64, i int) {
+	x := h[i]
+	for {
+		c := 2*i + 1
+		if c >= len(h) {
+			break
+		}
+		if c+1 < len(h) && h[c+1] < h[c] {
+			c++
+		}
+		if h[c] >= x {
+			break
+		}
+		h[i] = h[c]
+		i = c
+	}
+	h[i] = x
+}
+
+// mergeRunsWide is mergeRuns for any ticks and number of runs, with a heap of
+// (tick, run) pairs.
+func mergeRunsWide(dst []Note, src []rawNote, bounds []int, em *emitter) {
 	var small [32]runHead
 	h := small[:0]
 	for i := 0; i+1 < len(bounds); i++ {
