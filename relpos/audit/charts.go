@@ -182,6 +182,7 @@ func fileStem(name string) string {
 // plainTicks are gonum's default ticks labelled without trailing zeros: 25, not 25.00.
 type plainTicks struct{}
 
+// Ticks implements plot.Ticker.
 func (plainTicks) Ticks(lo, hi float64) []plot.Tick {
 	ts := plot.DefaultTicks{}.Ticks(lo, hi)
 	for i := range ts {
