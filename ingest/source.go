@@ -300,7 +300,7 @@ const maxListSize = 256 << 20
 // enumerateList reads a file listing one path per line (blank lines and lines starting
 // with # ignored; relative paths are relative to the list file's folder) and emits each
 // listed file, sorted by the path as written. Every listed path is an input, whatever
-// its extension; a name ending in .gz is decompressed.
+// its extension, once however often it is listed; a name ending in .gz is decompressed.
 func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) error {
 	data, err := fileLoader(listPath, maxListSize)()
 	if err != nil {
@@ -324,6 +324,8 @@ func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) er
 		scanErr = fmt.Errorf("read path list: %w", err)
 	}
 	slices.Sort(paths)
+	// A path listed twice is one input file: one record, not a copy of itself.
+	paths = slices.Compact(paths)
 	for _, p := range paths {
 		e := base
 		e.path = p
