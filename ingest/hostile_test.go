@@ -541,3 +541,22 @@ func TestArchiveLimitsExact(t *testing.T) {
 		}
 	})
 }
+
+// TestListSourceRepeatedPath: a path list naming the same path twice (a concatenated
+// list, say) gives that file one record; two records of one path made an export's
+// manifest list it twice, which its verify rejects.
+func TestListSourceRepeatedPath(t *testing.T) {
+	dir := t.TempDir()
+	fxWrite(t, dir, map[string][]byte{
+		"a.mid":     fxSMF(t, 96, false, fxTune(96, 0)),
+		"files.lst": []byte("a.mid\nb.mid\na.mid\n  a.mid\n"),
+	})
+	got := scanAll(t, []Source{{Path: filepath.Join(dir, "files.lst")}}, DefaultOptions())
+	want := []outcome{
+		{"a.mid", StatusOK, "", "", ""},
+		{"b.mid", StatusSkipped, "no such file or directory", "", ""},
+	}
+	if g := outcomes(got); !reflect.DeepEqual(g, want) {
+		t.Errorf("got %s\nwant %s", fmtOutcomes(g), fmtOutcomes(want))
+	}
+}
