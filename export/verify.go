@@ -25,6 +25,7 @@ type Problem struct {
 	Msg  string
 }
 
+// String formats the problem as "path: row N: message" (without the row when -1).
 func (p Problem) String() string {
 	if p.Row >= 0 {
 		return fmt.Sprintf("%s: row %d: %s", p.Path, p.Row, p.Msg)

@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"crypto/sha256"
 	"encoding/hex"
-	"errors"
 	"fmt"
 	"hash"
 	"io"
@@ -203,5 +202,3 @@ func hashReader(r io.Reader, h hash.Hash) (int64, string, error) {
 	}
 	return n, hex.EncodeToString(h.Sum(nil)), nil
 }
-
-var errNotOurs = errors.New("not a relshard output folder")
