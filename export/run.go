@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"os"
 	"runtime"
 	"sync"
 
@@ -63,6 +64,13 @@ func Run(ctx context.Context, sources []ingest.Source, cfg Config, opt Options) 
 	}
 	if opt.Out == "" {
 		return nil, errors.New("export: no output folder")
+	}
+	// A missing source fails the scan before anything is read; check it before
+	// the output folder is touched.
+	for _, src := range sources {
+		if _, err := os.Stat(src.Path); err != nil {
+			return nil, fmt.Errorf("source: %w", err)
+		}
 	}
 	workers := opt.Workers
 	if workers <= 0 {

@@ -155,3 +155,14 @@ func TestRunDuplicates(t *testing.T) {
 		}
 	}
 }
+
+func TestRunMissingSource(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "ds")
+	_, err := Run(context.Background(), []ingest.Source{{Path: filepath.Join(t.TempDir(), "nope")}}, smallConfig(), Options{Out: out})
+	if err == nil || !strings.Contains(err.Error(), "nope") {
+		t.Fatalf("err %v, want one naming the missing source", err)
+	}
+	if _, err := os.Stat(out); err == nil {
+		t.Error("the output folder was created for a run that could not start")
+	}
+}
