@@ -71,10 +71,11 @@ type Encoder struct {
 	dropDrums bool
 
 	pnotes []pnote
-	offs   []pendingOff
+	offs   []uint64
 	keys   []uint64
 	gnotes []gnote
 	bars   []barInfo
+	marks  []barMark // of the grid stream last encoded
 	stream []Token
 	window []Token
 }
@@ -201,10 +202,13 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error, inPlace bo
 	maxLen, stride, minLen := e.cfg.MaxLen, e.cfg.stride(), e.cfg.MinLen
 	grid := e.cfg.Encoding == Grid
 	var st cutState
-	at := 0 // the state covers s[:at]
+	at := 0   // the state covers s[:at]
+	mark := 0 // bar marks before at (grid, inPlace)
 	start, idx := 0, 0
 	for start < n {
-		if grid {
+		if grid && inPlace {
+			at = e.gridStateAt(&st, s, at, start, &mark)
+		} else if grid {
 			kinds := e.vocab.kinds
 			for ; at < start; at++ {
 				switch kinds[s[at].ID] {
@@ -267,6 +271,40 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error, inPlace bo
 		start = next
 	}
 	return nil
+}
+
+// gridStateAt brings st, which covers s[:at], up to s[:start], and returns the new
+// coverage (start). When a bar lies in between it starts from that bar's mark,
+// following only the tokens after it; mi is the mark index reached so far.
+func (e *Encoder) gridStateAt(st *cutState, s []Token, at, start int, mi *int) int {
+	marks := e.marks
+	i := *mi
+	for i < len(marks) && int(marks[i].at) < start {
+		i++
+	}
+	*mi = i
+	if i > 0 && int(marks[i-1].at) >= at {
+		m := &marks[i-1]
+		st.bar, st.pos, st.meter, st.tempo, st.inst = s[m.at], Token{}, m.meter, m.tempo, m.inst
+		at = int(m.at) + 1
+	}
+	kinds := e.vocab.kinds
+	for ; at < start; at++ {
+		switch kinds[s[at].ID] {
+		case KindBar:
+			st.bar = s[at]
+			st.pos = Token{}
+		case KindMeter:
+			st.meter = s[at]
+		case KindTempo:
+			st.tempo = s[at]
+		case KindPosition:
+			st.pos = s[at]
+		case KindInst:
+			st.inst = s[at]
+		}
+	}
+	return at
 }
 
 // startable reports whether a grid window may begin at a token of this id: not in

@@ -41,6 +41,16 @@ type barInfo struct {
 	num, den int
 }
 
+// barMark records, for one bar of the stream last encoded, the stream index of its
+// bar token and the latest meter, tempo and instrument tokens (ID 0 for none): the
+// meter and tempo as of this bar, the instrument as of just before it. Windows uses
+// them to know the state at a cut without following every token. (They are copies:
+// Windows writes window prefixes over the stream.)
+type barMark struct {
+	at                 int32
+	meter, tempo, inst Token
+}
+
 // maxTick keeps tick arithmetic far from int64 overflow.
 const maxTick = 1 << 40
 
@@ -144,6 +154,8 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	curInst := int16(-1)
 	var barStart int64
 	mi, ni := 0, 0
+	marks := e.marks[:0]
+	var lastMeter, lastTempo, lastInst Token
 	for ni < len(notes) {
 		for mi < len(meters) && meters[mi].step <= barStart {
 			m := meters[mi]
@@ -164,17 +176,22 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		}
 		bt := int32(barStart)
 		bms := e.msOfStep(barStart)
+		mark := barMark{at: int32(len(dst) - start), inst: lastInst}
 		dst = put(dst, voc.barID, bt, bms, -1, -1)
 		if meterID != prevMeter {
 			dst = put(dst, meterID, bt, bms, -1, -1)
+			lastMeter = dst[len(dst)-1]
 			prevMeter = meterID
 		}
 		us := e.clock.usPerQuarterAt(float64(barStart) * e.clock.tpq / float64(e.cfg.GridPerQuarter))
 		tempoID := voc.tempoBase + int32(voc.tempoBin(60e6/us))
 		if tempoID != prevTempo {
 			dst = put(dst, tempoID, bt, bms, -1, -1)
+			lastTempo = dst[len(dst)-1]
 			prevTempo = tempoID
 		}
+		mark.meter, mark.tempo = lastMeter, lastTempo
+		marks = append(marks, mark)
 		barEnd := barStart + barLen
 		for ni < len(notes) && notes[ni].step < barEnd {
 			s := notes[ni].step
@@ -195,6 +212,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 				inst, pitch, dur, vel := unpackGrid(k)
 				if inst != curInst {
 					dst = put(dst, instID(voc, inst), t, ms, -1, inst)
+					lastInst = dst[len(dst)-1]
 					curInst = inst
 				}
 				dst = put(dst, voc.pitchBase+int32(pitch), t, ms, int16(pitch), inst)
@@ -207,6 +225,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			return dst, st, errStreamTooLong()
 		}
 	}
+	e.marks = marks
 	last := dst[len(dst)-1]
 	dst = put(dst, EndID, last.Time, last.MS, -1, -1)
 	st.Tokens = len(dst) - start

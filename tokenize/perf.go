@@ -18,11 +18,16 @@ type pnote struct {
 	inst    int16
 }
 
-// pendingOff is a note-off waiting in the encoder's heap, ordered by (step, key).
-type pendingOff struct {
-	step  int64
-	pitch uint8
-	inst  int16
+// Pending note-offs are packed in one integer each, so that integer order is the
+// order they are emitted in: by step, then key. (No two pending note-offs share a
+// step and key: a key sounds once at a time.) The low bits carry the instrument.
+const (
+	offStepShift  = 24
+	offPitchShift = 16
+)
+
+func packOff(step int64, pitch uint8, inst int16) uint64 {
+	return uint64(step)<<offStepShift | uint64(pitch)<<offPitchShift | uint64(uint16(inst))
 }
 
 // smallSort is the group size up to which groups are insertion-sorted.
@@ -41,7 +46,7 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	st.Notes = len(p.Notes)
 	voc := e.vocab
 	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
-		heap: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
+		offq: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
 	o.dst = put(o.dst, BeginID, 0, 0, -1, -1)
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS) // seconds to steps
 	// The next note is quantized straight into the slot after the group, so it is
@@ -81,7 +86,7 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	st.Notes = len(p.Notes)
 	voc := e.vocab
 	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
-		heap: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
+		offq: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
 	o.dst = put(o.dst, BeginID, 0, 0, -1, -1)
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS)
 	notes := e.pnotes[:0]
@@ -161,10 +166,10 @@ func (e *Encoder) finishPerformance(o *perfOut, last []pnote, st *Stats) ([]Toke
 			return o.dst, *st, err
 		}
 	}
-	if !o.offsUpTo(math.MaxInt64) {
+	if !o.offsBefore(math.MaxUint64) {
 		return o.dst, *st, errStreamTooLong()
 	}
-	e.offs = o.heap
+	e.offs = o.offq
 	st.Encoded = st.Notes - st.DrumsDropped - st.OutOfRange - st.Merged
 	ms := int32(o.cur * o.shiftMS)
 	o.dst = put(o.dst, EndID, ms, ms, -1, -1)
@@ -210,33 +215,35 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 		}
 		kept = append(kept, key)
 	}
-	if !o.offsUpTo(s) || !o.advance(s) {
+	if !o.offsBefore(uint64(s+1)<<offStepShift) || !o.advance(s) {
 		return errStreamTooLong()
 	}
 	ms := int32(o.cur * o.shiftMS)
 	d, vel := o.dst, o.curVel // locals stay in registers
+	zero := false             // a note of zero length, whose note-off follows all note-ons
 	for _, key := range kept {
 		n := &group[uint32(key)]
 		if int(n.vel) != vel {
 			vel = int(n.vel)
 			d = put(d, voc.velBase+int32(n.vel), ms, ms, -1, -1)
 		}
-		id := voc.onBase + int32(n.pitch)
 		if n.drum {
-			id = voc.hitBase + int32(n.pitch)
-		}
-		d = put(d, id, ms, ms, int16(n.pitch), n.inst)
-	}
-	for _, key := range kept {
-		n := &group[uint32(key)]
-		if n.drum {
+			d = put(d, voc.hitBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
 			continue
 		}
+		d = put(d, voc.onBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
 		o.keyOff[n.pitch] = n.off
 		if n.off == n.on {
-			d = put(d, voc.offBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
+			zero = true
 		} else {
-			o.heap = pushOff(o.heap, pendingOff{step: n.off, pitch: n.pitch, inst: n.inst})
+			o.pushOff(packOff(n.off, n.pitch, n.inst))
+		}
+	}
+	if zero {
+		for _, key := range kept {
+			if n := &group[uint32(key)]; !n.drum && n.off == n.on {
+				d = put(d, voc.offBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
+			}
 		}
 	}
 	o.dst, o.curVel = d, vel
@@ -259,27 +266,41 @@ type perfOut struct {
 	curVel            int // current velocity bin, -1 before the first
 	shiftBase         int32
 	offBase           int32
-	heap              []pendingOff
+	offq              []uint64 // pending note-offs, sorted from offq[head] on
+	head              int
 	keyOff            [128]int64 // off step of each key's latest note
 }
 
 // retrigger moves the pending note-off of key (the note sounding past step) to step.
 func (o *perfOut) retrigger(key uint8, step int64) {
-	h := o.heap
-	for i := range h {
-		if h[i].pitch == key && h[i].step > step {
-			h[i].step = step
-			for i > 0 {
-				p := (i - 1) / 2
-				if !offLess(h[i], h[p]) {
-					break
-				}
-				h[i], h[p] = h[p], h[i]
-				i = p
+	q := o.offq
+	for i := o.head; i < len(q); i++ {
+		if k := q[i]; uint8(k>>offPitchShift) == key && int64(k>>offStepShift) > step {
+			k = packOff(step, key, int16(uint16(k)))
+			for ; i > o.head && q[i-1] > k; i-- {
+				q[i] = q[i-1]
 			}
+			q[i] = k
 			return
 		}
 	}
+}
+
+// pushOff queues a note-off. Notes arrive by onset and most end after the ones
+// already sounding, so the insertion point is usually at or near the end.
+func (o *perfOut) pushOff(k uint64) {
+	q, h := o.offq, o.head
+	if h >= 64 && 2*h >= len(q) {
+		q = q[:copy(q, q[h:])]
+		h = 0
+	}
+	q = append(q, k)
+	i := len(q) - 1
+	for ; i > h && q[i-1] > k; i-- {
+		q[i] = q[i-1]
+	}
+	q[i] = k
+	o.offq, o.head = q, h
 }
 
 // advance emits the time-shifts up to step; false when the stream would grow past
@@ -304,17 +325,25 @@ func (o *perfOut) advance(to int64) bool {
 	return true
 }
 
-// offsUpTo emits the pending note-offs up to step, with the shifts between them.
-func (o *perfOut) offsUpTo(step int64) bool {
-	for len(o.heap) > 0 && o.heap[0].step <= step {
-		off := o.heap[0]
-		o.heap = popOff(o.heap)
-		if !o.advance(off.step) {
+// offsBefore emits the pending note-offs packed below lim, with the shifts between
+// them.
+func (o *perfOut) offsBefore(lim uint64) bool {
+	q, h := o.offq, o.head
+	for h < len(q) && q[h] < lim {
+		k := q[h]
+		h++
+		if !o.advance(int64(k >> offStepShift)) {
+			o.head = h
 			return false
 		}
 		ms := int32(o.cur * o.shiftMS)
-		o.dst = put(o.dst, o.offBase+int32(off.pitch), ms, ms, int16(off.pitch), off.inst)
+		pitch := int16(uint8(k >> offPitchShift))
+		o.dst = put(o.dst, o.offBase+int32(pitch), ms, ms, pitch, int16(uint16(k)))
 	}
+	if h == len(q) {
+		q, h = q[:0], 0
+	}
+	o.offq, o.head = q, h
 	return true
 }
 
@@ -330,40 +359,4 @@ func sortKeys(k []uint64) {
 			k[j], k[j-1] = k[j-1], k[j]
 		}
 	}
-}
-
-func offLess(a, b pendingOff) bool { return a.step < b.step || (a.step == b.step && a.pitch < b.pitch) }
-
-func pushOff(h []pendingOff, o pendingOff) []pendingOff {
-	h = append(h, o)
-	for i := len(h) - 1; i > 0; {
-		p := (i - 1) / 2
-		if !offLess(h[i], h[p]) {
-			break
-		}
-		h[i], h[p] = h[p], h[i]
-		i = p
-	}
-	return h
-}
-
-func popOff(h []pendingOff) []pendingOff {
-	n := len(h) - 1
-	h[0] = h[n]
-	h = h[:n]
-	for i := 0; ; {
-		l, r, m := 2*i+1, 2*i+2, i
-		if l < n && offLess(h[l], h[m]) {
-			m = l
-		}
-		if r < n && offLess(h[r], h[m]) {
-			m = r
-		}
-		if m == i {
-			break
-		}
-		h[i], h[m] = h[m], h[i]
-		i = m
-	}
-	return h
 }
