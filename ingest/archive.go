@@ -149,15 +149,16 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 			zf := zf
 			sf.acquire()
 			e.release = sf.release
-			e.load = func() ([]byte, error) {
+			e.load = func(buf []byte) ([]byte, error) {
 				rc, err := zf.Open()
 				if err != nil {
 					return nil, fmt.Errorf("zip entry: %w: %w", err, ErrBadArchive)
 				}
 				defer rc.Close()
 				// archive/zip also fails an entry that inflates past its declared size.
-				data, err := readCapped(rc, lim.MaxEntrySize, min(size, maxPrealloc),
-					fmt.Errorf("inflates past the cap %s: %w", sizeString(lim.MaxEntrySize), ErrEntryTooLarge))
+				data, err := readCappedInto(rc, buf, lim.MaxEntrySize, min(size, maxPrealloc), func() error {
+					return fmt.Errorf("inflates past the cap %s: %w", sizeString(lim.MaxEntrySize), ErrEntryTooLarge)
+				})
 				if err != nil {
 					if errors.Is(err, ErrEntryTooLarge) {
 						return nil, err

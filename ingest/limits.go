@@ -68,23 +68,44 @@ var (
 // max+1 bytes: over the cap it returns tooBig. sizeHint, when positive and within the
 // cap, sizes the buffer in one allocation.
 func readCapped(r io.Reader, max, sizeHint int64, tooBig error) ([]byte, error) {
+	return readCappedInto(r, nil, max, sizeHint, func() error { return tooBig })
+}
+
+// readCappedInto is readCapped reading into the storage of buf when it is large enough
+// (its contents are overwritten), so that a worker reuses one buffer from file to file
+// instead of allocating and zeroing one per file; tooBig makes the error only when the
+// cap is passed.
+func readCappedInto(r io.Reader, buf []byte, max, sizeHint int64, tooBig func() error) ([]byte, error) {
 	if sizeHint > max {
-		return nil, tooBig
+		return nil, tooBig()
 	}
-	var buf bytes.Buffer
+	// Room for the expected size and one more read that sees EOF, without regrowing.
+	want := int64(bytes.MinRead)
 	if sizeHint > 0 {
-		// bytes.Buffer.ReadFrom wants MinRead free bytes before each read: that much
-		// spare room lets it read the expected size and then EOF without regrowing.
-		buf.Grow(int(sizeHint) + bytes.MinRead)
+		want += sizeHint
 	}
-	n, err := buf.ReadFrom(io.LimitReader(r, max+1))
-	if err != nil {
-		return nil, err
+	if int64(cap(buf)) < want {
+		buf = make([]byte, 0, want)
 	}
-	if n > max {
-		return nil, tooBig
+	b := buf[:0]
+	lr := io.LimitedReader{R: r, N: max + 1}
+	for {
+		if len(b) == cap(b) {
+			b = append(b, 0)[:len(b)]
+		}
+		n, err := lr.Read(b[len(b):cap(b)])
+		b = b[:len(b)+n]
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, err
+		}
 	}
-	return buf.Bytes(), nil
+	if int64(len(b)) > max {
+		return nil, tooBig()
+	}
+	return b, nil
 }
 
 // gzipMagic is the two-byte ID of a gzip member (RFC 1952, section 2.3.1).

@@ -118,6 +118,7 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 		g.Go(func() error {
 			defer workers.Done()
 			h := newPieceHasher()
+			var buf []byte // the worker's read buffer, reused from file to file
 			for j := range jobs {
 				if gctx.Err() != nil {
 					// Cancelled: keep taking jobs so the producer's sends end, but read nothing.
@@ -126,7 +127,7 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 					}
 					continue
 				}
-				r := processGuarded(j.e, &opts, h)
+				r := processGuarded(j.e, &opts, h, &buf)
 				if hook := scanProcessedHook.Load(); hook != nil {
 					(*hook)()
 				}
@@ -208,22 +209,31 @@ func (o Options) withDefaults() Options {
 // processGuarded is processEntry turning a panic, which would be a bug (Parse never
 // panics on input), into a skipped record that says so, so one bad file cannot end a
 // long run.
-func processGuarded(e *entry, opts *Options, h *pieceHasher) (r *Result) {
+func processGuarded(e *entry, opts *Options, h *pieceHasher, buf *[]byte) (r *Result) {
 	defer func() {
 		if p := recover(); p != nil {
 			r = skip(&Result{Record: FileRecord{Dataset: e.dataset, Source: e.source, Path: e.path}},
 				fmt.Errorf("internal error, a bug in relshard (please report it with the file): %v", p))
 		}
 	}()
-	return processEntry(e, opts, h)
+	return processEntry(e, opts, h, buf)
 }
 
+// maxReuse is the largest read buffer a worker keeps for the next file.
+const maxReuse = 8 << 20
+
 // processEntry reads, parses, filters and hashes one input file; every outcome is a result.
-func processEntry(e *entry, opts *Options, h *pieceHasher) *Result {
+// The file's bytes are read into *buf's storage when it is large enough, and the
+// buffer the bytes end up in is kept in *buf for the next file: nothing in a Result
+// refers to them (Parse copies the names it keeps).
+func processEntry(e *entry, opts *Options, h *pieceHasher, buf *[]byte) *Result {
 	r := &Result{Record: FileRecord{Dataset: e.dataset, Source: e.source, Path: e.path}}
-	data, err := loadEntry(e, opts)
+	data, own, err := loadEntry(e, opts, *buf)
 	if err != nil {
 		return skip(r, err)
+	}
+	if own && cap(data) <= maxReuse {
+		defer func() { *buf = data[:0] }()
 	}
 	r.Record.Size = int64(len(data))
 	r.Record.SHA256 = fileSHA256(data)
@@ -262,30 +272,33 @@ func processEntry(e *entry, opts *Options, h *pieceHasher) *Result {
 	return r
 }
 
-// loadEntry returns an entry's MIDI bytes: preloaded or read, then gunzipped for a .gz
-// name, within the size caps.
-func loadEntry(e *entry, opts *Options) ([]byte, error) {
+// loadEntry returns an entry's MIDI bytes: preloaded or read (into buf's storage when
+// it is large enough), then gunzipped for a .gz name, within the size caps. own
+// reports whether the bytes are in a buffer of the scan's own, which may be reused
+// (not the preloaded bytes of a tar entry).
+func loadEntry(e *entry, opts *Options, buf []byte) (data []byte, own bool, err error) {
 	if e.err != nil {
-		return nil, e.err
+		return nil, false, e.err
 	}
-	data := e.data
+	data = e.data
 	if e.load != nil {
-		var err error
-		data, err = e.load()
+		data, err = e.load(buf)
 		if e.release != nil {
 			e.release()
 		}
 		if err != nil {
-			return nil, err
+			return nil, false, err
 		}
+		own = true
 	}
 	if isGzipName(e.path) {
-		return gunzipCapped(data, opts.MaxFileSize)
+		data, err = gunzipCapped(data, opts.MaxFileSize)
+		return data, err == nil, err
 	}
 	if int64(len(data)) > opts.MaxFileSize {
-		return nil, fmt.Errorf("%d bytes, limit %s: %w", len(data), sizeString(opts.MaxFileSize), ErrTooLarge)
+		return nil, false, fmt.Errorf("%d bytes, limit %s: %w", len(data), sizeString(opts.MaxFileSize), ErrTooLarge)
 	}
-	return data, nil
+	return data, own, nil
 }
 
 // skip marks a result skipped. The reason names the file: a *ParseError does already

@@ -127,8 +127,8 @@ func isGzipName(name string) bool {
 type entry struct {
 	dataset, source, path string
 	data                  []byte
-	load                  func() ([]byte, error)
-	release               func() // called once the entry's bytes were loaded (or abandoned)
+	load                  func(buf []byte) ([]byte, error) // may read into buf's storage
+	release               func()                           // called once the entry's bytes were loaded (or abandoned)
 	err                   error
 }
 
@@ -162,8 +162,8 @@ func enumerate(ctx context.Context, src Source, kind sourceKind, opts *Options, 
 
 // fileLoader reads a file of at most max bytes, checking its size before reading and
 // never reading more than max+1 bytes (the file may grow while read).
-func fileLoader(path string, max int64) func() ([]byte, error) {
-	return func() ([]byte, error) {
+func fileLoader(path string, max int64) func([]byte) ([]byte, error) {
+	return func(buf []byte) ([]byte, error) {
 		f, err := os.Open(path)
 		if err != nil {
 			return nil, err
@@ -176,11 +176,12 @@ func fileLoader(path string, max int64) func() ([]byte, error) {
 		if !fi.Mode().IsRegular() {
 			return nil, ErrSpecialEntry
 		}
-		tooBig := fmt.Errorf("%d bytes, limit %s: %w", fi.Size(), sizeString(max), ErrTooLarge)
 		if fi.Size() > max {
-			return nil, tooBig
+			return nil, fmt.Errorf("%d bytes, limit %s: %w", fi.Size(), sizeString(max), ErrTooLarge)
 		}
-		data, err := readCapped(f, max, fi.Size(), fmt.Errorf("grew past the limit %s while read: %w", sizeString(max), ErrTooLarge))
+		data, err := readCappedInto(f, buf, max, fi.Size(), func() error {
+			return fmt.Errorf("grew past the limit %s while read: %w", sizeString(max), ErrTooLarge)
+		})
 		if err != nil {
 			return nil, fmt.Errorf("read: %w", err)
 		}
@@ -302,7 +303,7 @@ const maxListSize = 256 << 20
 // listed file, sorted by the path as written. Every listed path is an input, whatever
 // its extension, once however often it is listed; a name ending in .gz is decompressed.
 func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) error {
-	data, err := fileLoader(listPath, maxListSize)()
+	data, err := fileLoader(listPath, maxListSize)(nil)
 	if err != nil {
 		e := base
 		e.err = fmt.Errorf("read path list: %w", err)
@@ -353,7 +354,7 @@ func Load(path string, max int64) ([]byte, error) {
 	if max <= 0 {
 		max = DefaultMaxFileSize
 	}
-	data, err := fileLoader(path, max)()
+	data, err := fileLoader(path, max)(nil)
 	var pe *fs.PathError
 	if errors.As(err, &pe) {
 		return nil, err // names the path already
