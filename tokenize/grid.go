@@ -54,14 +54,37 @@ type barMark struct {
 // maxTick keeps tick arithmetic far from int64 overflow.
 const maxTick = 1 << 40
 
-// stepOf maps a tick to the nearest grid step.
+// stepOf maps a tick to the nearest grid step: (tick*2g + tpq) / (2 tpq) for
+// metric divisions. A 64-bit division costs as much as the rest of a note, so the
+// quotient is estimated through a reciprocal set up by setStepDiv and then
+// corrected to the exact integer quotient.
 func (e *Encoder) stepOf(tick int64) int64 {
 	g := int64(e.cfg.GridPerQuarter)
 	if e.clock.smpte > 0 {
 		return int64(math.Round(float64(tick) / e.clock.smpte * 2 * float64(g)))
 	}
-	tpq := int64(e.clock.tpq)
-	return (tick*g*2 + tpq) / (2 * tpq)
+	d := e.stepDiv
+	n := tick*2*g + d/2
+	if tick < 0 || tick > maxTick || n >= 1<<53 {
+		return n / d
+	}
+	q := int64(float64(n) * e.stepInv)
+	r := n - q*d
+	for r < 0 {
+		q--
+		r += d
+	}
+	for r >= d {
+		q++
+		r -= d
+	}
+	return q
+}
+
+// setStepDiv sets up stepOf for the piece e.clock was reset to.
+func (e *Encoder) setStepDiv() {
+	e.stepDiv = 2 * int64(e.clock.tpq)
+	e.stepInv = 1 / float64(e.stepDiv)
 }
 
 // msOfStep is the time of a grid step through the piece's tempo map.
@@ -85,12 +108,13 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		return dst, st, fmt.Errorf("encode: %w: ticks per quarter %d", ErrBadPiece, p.TicksPerQuarter)
 	}
 	e.clock.reset(p)
+	e.setStepDiv()
 	notes := e.gnotes[:0]
 	maxDur := int64(e.cfg.MaxDurationSteps)
 	sorted := true
 	for i := range p.Notes {
 		n := &p.Notes[i]
-		if n.Drum && e.cfg.Drums == DrumsDrop {
+		if n.Drum && e.dropDrums {
 			st.DrumsDropped++
 			continue
 		}
@@ -180,14 +204,14 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		dst = put(dst, voc.barID, bt, bms, -1, -1)
 		if meterID != prevMeter {
 			dst = put(dst, meterID, bt, bms, -1, -1)
-			lastMeter = dst[len(dst)-1]
+			lastMeter = Token{ID: meterID, Time: bt, MS: bms, Pitch: -1, Inst: -1}
 			prevMeter = meterID
 		}
 		us := e.clock.usPerQuarterAt(float64(barStart) * e.clock.tpq / float64(e.cfg.GridPerQuarter))
 		tempoID := voc.tempoBase + int32(voc.tempoBin(60e6/us))
 		if tempoID != prevTempo {
 			dst = put(dst, tempoID, bt, bms, -1, -1)
-			lastTempo = dst[len(dst)-1]
+			lastTempo = Token{ID: tempoID, Time: bt, MS: bms, Pitch: -1, Inst: -1}
 			prevTempo = tempoID
 		}
 		mark.meter, mark.tempo = lastMeter, lastTempo
@@ -211,8 +235,9 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			for _, k := range keys {
 				inst, pitch, dur, vel := unpackGrid(k)
 				if inst != curInst {
-					dst = put(dst, instID(voc, inst), t, ms, -1, inst)
-					lastInst = dst[len(dst)-1]
+					id := instID(voc, inst)
+					dst = put(dst, id, t, ms, -1, inst)
+					lastInst = Token{ID: id, Time: t, MS: ms, Pitch: -1, Inst: inst}
 					curInst = inst
 				}
 				dst = put(dst, voc.pitchBase+int32(pitch), t, ms, int16(pitch), inst)
