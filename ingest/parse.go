@@ -71,6 +71,7 @@ func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
 // parser holds the reusable state of one Parse call.
 type parser struct {
 	r      Reader
+	batch  [256]chanMsg // channel messages read at once by Reader.channelRun
 	opts   ParseOptions
 	pair   pairer
 	bounds []int // start of each track's run in pair.buf, plus the end
@@ -137,34 +138,16 @@ func (ps *parser) readTrack() {
 	named := false
 	ev := r.Event()
 	for {
-		status, d1, d2, ok := r.nextChannel()
-		if !ok {
-			if !r.Next() {
-				break
-			}
-			if ev.Kind == KindChannel {
-				status, d1, d2 = ev.Status, ev.Data1, ev.Data2
-				ok = true
-			}
+		msgs := r.channelRun(ps.batch[:0])
+		ps.channels(msgs)
+		if len(msgs) == len(ps.batch) {
+			continue // the batch is full: more may follow
 		}
-		if ok {
-			ch := status & statusChannelMask
-			switch status & statusTypeMask {
-			case statusNoteOn:
-				if d2 != 0 {
-					pr.noteOn(ch, d1, d2, r.tick)
-				} else {
-					pr.noteOff(ch, d1, r.tick)
-				}
-			case statusNoteOff:
-				pr.noteOff(ch, d1, r.tick)
-			case statusControl:
-				if d1 == ccSustain {
-					pr.sustain(ch, d2, r.tick)
-				}
-			case statusProgram:
-				ps.progs = append(ps.progs, progChange{tick: r.tick, channel: ch, program: d1})
-			}
+		if !r.Next() {
+			break
+		}
+		if ev.Kind == KindChannel {
+			ps.channels([]chanMsg{{tick: ev.Tick, status: ev.Status, d1: ev.Data1, d2: ev.Data2}})
 			continue
 		}
 		if ev.Kind != KindMeta {
@@ -210,6 +193,31 @@ func (ps *parser) readTrack() {
 		ps.end = t
 	}
 	ps.names = append(ps.names, name)
+}
+
+// channels pairs the notes, sustain and program changes of channel messages.
+func (ps *parser) channels(msgs []chanMsg) {
+	pr := &ps.pair
+	for i := range msgs {
+		m := &msgs[i]
+		ch := m.status & statusChannelMask
+		switch m.status & statusTypeMask {
+		case statusNoteOn:
+			if m.d2 != 0 {
+				pr.noteOn(ch, m.d1, m.d2, m.tick)
+			} else {
+				pr.noteOff(ch, m.d1, m.tick)
+			}
+		case statusNoteOff:
+			pr.noteOff(ch, m.d1, m.tick)
+		case statusControl:
+			if m.d1 == ccSustain {
+				pr.sustain(ch, m.d2, m.tick)
+			}
+		case statusProgram:
+			ps.progs = append(ps.progs, progChange{tick: m.tick, channel: ch, program: m.d1})
+		}
+	}
 }
 
 // text decodes a meta text payload: UTF-8 when valid, else Latin-1 (common practice

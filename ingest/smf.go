@@ -468,63 +468,74 @@ func (r *Reader) Next() bool {
 	return true
 }
 
-// nextChannel is Next for the common event, a channel message after a delta time of
-// one or two bytes, wholly inside the chunk: it returns the status (running status
-// resolved) and data bytes without filling Event. Anything else, every error
-// included, gives ok false with nothing changed, for Next to read. Parse calls it
-// before Next for each event; the Reader's state after it is what Next leaves.
-func (r *Reader) nextChannel() (status, d1, d2 byte, ok bool) {
-	p := r.pos
+// chanMsg is one channel message read by Reader.channelRun.
+type chanMsg struct {
+	tick           int64 // absolute tick
+	status, d1, d2 byte  // running status resolved; d2 is 0 for one-data-byte messages
+}
+
+// channelRun is Next for a run of the common event, a channel message after a delta
+// time of one or two bytes, wholly inside the chunk: it appends the messages that
+// come next in the current track to buf, up to its capacity, without filling Event,
+// and stops before anything else, every error included, for Next to read. The
+// Reader's state after it is what Next would leave after those events. The run's
+// state stays in registers, which makes it the fast path of Parse.
+func (r *Reader) channelRun(buf []chanMsg) []chanMsg {
 	d := r.data[:r.end]
+	p, tick, running, cancel, events := r.pos, r.tick, r.running, r.cancel, r.events
 	// five bytes: the longest event taken here (two delta bytes, status, two data bytes)
-	if len(d)-p < 5 || r.events >= r.maxEvents {
-		return 0, 0, 0, false
-	}
-	delta := uint32(d[p])
-	p++
-	if delta >= vlqMore {
-		b := d[p]
-		if b >= vlqMore {
-			return 0, 0, 0, false
+	for len(buf) < cap(buf) && len(d)-p >= 5 && events < r.maxEvents {
+		q := p
+		delta := uint32(d[q])
+		q++
+		if delta >= vlqMore {
+			b := d[q]
+			if b >= vlqMore {
+				break
+			}
+			delta = (delta&^vlqMore)<<7 | uint32(b)
+			q++
 		}
-		delta = (delta&^vlqMore)<<7 | uint32(b)
-		p++
-	}
-	status = d[p]
-	running := status < statusBit
-	if running {
-		if r.running == 0 {
-			return 0, 0, 0, false
+		status := d[q]
+		isRunning := status < statusBit
+		if isRunning {
+			if running == 0 {
+				break
+			}
+			status = running
+		} else {
+			if status >= statusSysEx {
+				break
+			}
+			q++
 		}
-		status = r.running
-	} else {
-		if status >= statusSysEx {
-			return 0, 0, 0, false
+		d1, d2 := d[q], byte(0)
+		if typ := status & statusTypeMask; typ == statusProgram || typ == statusChanTouch {
+			if d1 >= statusBit {
+				break
+			}
+			q++
+		} else {
+			d2 = d[q+1]
+			if (d1|d2)&statusBit != 0 {
+				break
+			}
+			q += 2
 		}
-		p++
-	}
-	d1 = d[p]
-	if typ := status & statusTypeMask; typ == statusProgram || typ == statusChanTouch {
-		if d1 >= statusBit {
-			return 0, 0, 0, false
+		if isRunning && cancel {
+			r.RunningAfterMeta++
 		}
-		p++
-	} else {
-		d2 = d[p+1]
-		if (d1|d2)&statusBit != 0 {
-			return 0, 0, 0, false
-		}
-		p += 2
+		cancel = false
+		running = status
+		tick += int64(delta)
+		p = q
+		events++
+		buf = buf[:len(buf)+1]
+		m := &buf[len(buf)-1]
+		m.tick, m.status, m.d1, m.d2 = tick, status, d1, d2
 	}
-	if running && r.cancel {
-		r.RunningAfterMeta++
-	}
-	r.cancel = false
-	r.running = status
-	r.tick += int64(delta)
-	r.pos = p
-	r.events++
-	return status, d1, d2, true
+	r.pos, r.tick, r.running, r.cancel, r.events = p, tick, running, cancel, events
+	return buf
 }
 
 // length reads a VLQ length at p and checks that many bytes remain before end. It

@@ -21,9 +21,10 @@ type walkedEvent struct {
 }
 
 // walkEvents records every event of data and then the Reader's counters and error,
-// reading each event with nextChannel first (as Parse does) when fast is set, with
-// Next only otherwise. Both ways must give the same record.
-func walkEvents(data []byte, maxEvents int, fast bool) ([]walkedEvent, string) {
+// reading runs of channel messages with channelRun, batch at most messages at a time,
+// before each Next (as Parse does) when batch > 0, with Next only otherwise. Both
+// ways must give the same record.
+func walkEvents(data []byte, maxEvents, batch int) ([]walkedEvent, string) {
 	var r Reader
 	var evs []walkedEvent
 	if err := r.Reset("x.mid", data, maxEvents); err != nil {
@@ -32,9 +33,15 @@ func walkEvents(data []byte, maxEvents int, fast bool) ([]walkedEvent, string) {
 	ev := r.Event()
 	for r.NextTrack() {
 		for {
-			if fast {
-				if st, d1, d2, ok := r.nextChannel(); ok {
-					evs = append(evs, walkedEvent{r.Track(), r.Tick(), KindChannel, st, d1, d2, 0, ""})
+			if batch > 0 {
+				msgs := r.channelRun(make([]chanMsg, 0, batch))
+				for _, m := range msgs {
+					evs = append(evs, walkedEvent{r.Track(), m.tick, KindChannel, m.status, m.d1, m.d2, 0, ""})
+				}
+				if len(msgs) > 0 && msgs[len(msgs)-1].tick != r.Tick() {
+					return nil, fmt.Sprintf("last message at tick %d, reader at %d", msgs[len(msgs)-1].tick, r.Tick())
+				}
+				if len(msgs) == batch {
 					continue
 				}
 			}
@@ -52,12 +59,12 @@ func walkEvents(data []byte, maxEvents int, fast bool) ([]walkedEvent, string) {
 		r.RunningAfterMeta, r.SlackBytes, r.SlackTracks, r.MissingEOT, r.SkippedChunks, r.TrailingBytes(), r.Err())
 }
 
-// TestNextChannelMatchesNext: the fast path of Parse reads the same events as Next,
+// TestChannelRunMatchesNext: the fast path of Parse reads the same events as Next,
 // leaves the same counters and meets the same errors (also at an event cap of 50, so
 // the cap is hit), on the testdata fixtures, Debian's openttd-openmsx files when
 // installed, and every damaged variant the mutate package makes of the fixtures and
 // of two of those files.
-func TestNextChannelMatchesNext(t *testing.T) {
+func TestChannelRunMatchesNext(t *testing.T) {
 	var bases []mutate.Base
 	for name, data := range fixtures() {
 		bases = append(bases, mutate.Base{Name: name, Data: data})
@@ -77,15 +84,17 @@ func TestNextChannelMatchesNext(t *testing.T) {
 	check := func(name string, data []byte) {
 		t.Helper()
 		for _, max := range []int{0, 50} {
-			slow, slowEnd := walkEvents(data, max, false)
-			fast, fastEnd := walkEvents(data, max, true)
-			if !slices.Equal(slow, fast) || slowEnd != fastEnd {
-				i := 0
-				for i < min(len(slow), len(fast)) && slow[i] == fast[i] {
-					i++
+			slow, slowEnd := walkEvents(data, max, 0)
+			for _, batch := range []int{1, 3, 256} {
+				fast, fastEnd := walkEvents(data, max, batch)
+				if !slices.Equal(slow, fast) || slowEnd != fastEnd {
+					i := 0
+					for i < min(len(slow), len(fast)) && slow[i] == fast[i] {
+						i++
+					}
+					t.Errorf("%s, event cap %d, batch %d: the fast path reads differently from event %d of %d/%d:\nNext only:       %+v %s\nwith channelRun: %+v %s",
+						name, max, batch, i, len(slow), len(fast), slow[i:min(i+3, len(slow))], slowEnd, fast[i:min(i+3, len(fast))], fastEnd)
 				}
-				t.Errorf("%s, event cap %d: the fast path reads differently from event %d of %d/%d:\nNext only:       %+v %s\nwith nextChannel: %+v %s",
-					name, max, i, len(slow), len(fast), slow[i:min(i+3, len(slow))], slowEnd, fast[i:min(i+3, len(fast))], fastEnd)
 			}
 		}
 	}
