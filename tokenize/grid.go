@@ -225,13 +225,15 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			for h < len(notes) && notes[h].step == s {
 				h++
 			}
-			keys := e.keys[:0]
-			for _, g := range notes[ni:h] {
-				keys = append(keys, g.key)
+			if cap(e.keys) < h-ni { // stored back only when it grows, as in emitGroup
+				e.keys = make([]uint64, 0, 2*(h-ni))
+			}
+			keys := e.keys[:h-ni]
+			for i, g := range notes[ni:h] {
+				keys[i] = g.key
 			}
 			ni = h
 			sortKeys(keys)
-			e.keys = keys
 			for _, k := range keys {
 				inst, pitch, dur, vel := unpackGrid(k)
 				if inst != curInst {

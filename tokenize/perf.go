@@ -45,9 +45,9 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	var st Stats
 	st.Notes = len(p.Notes)
 	voc := e.vocab
-	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
-		offq: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	o.dst = put(o.dst, BeginID, 0, 0, -1, -1)
+	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
+		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
+	d := put(dst, BeginID, 0, 0, -1, -1)
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS) // seconds to steps
 	// The next note is quantized straight into the slot after the group, so it is
 	// never copied: a note of the next onset then moves to the group's start.
@@ -68,16 +68,17 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 				e.pnotes = group
 				return e.encodePerformanceUnsorted(p, v, dst)
 			}
-			if err := e.emitGroup(&o, group[:len(group)-1], &st); err != nil {
+			var err error
+			if d, err = e.emitGroup(&o, d, group[:len(group)-1], &st); err != nil {
 				e.pnotes = group
-				return o.dst, st, err
+				return d, st, err
 			}
 			group[0] = group[len(group)-1]
 			group = group[:1]
 		}
 	}
 	e.pnotes = group
-	return e.finishPerformance(&o, group, &st)
+	return e.finishPerformance(&o, d, group, &st)
 }
 
 // encodePerformanceUnsorted encodes a piece whose notes are not in onset order.
@@ -85,9 +86,9 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	var st Stats
 	st.Notes = len(p.Notes)
 	voc := e.vocab
-	o := perfOut{dst: dst, start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
-		offq: e.offs[:0], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	o.dst = put(o.dst, BeginID, 0, 0, -1, -1)
+	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
+		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
+	d := put(dst, BeginID, 0, 0, -1, -1)
 	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS)
 	notes := e.pnotes[:0]
 	for i := range p.Notes {
@@ -105,13 +106,14 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	g := 0
 	for h := range notes {
 		if notes[h].on != notes[g].on {
-			if err := e.emitGroup(&o, notes[g:h], &st); err != nil {
-				return o.dst, st, err
+			var err error
+			if d, err = e.emitGroup(&o, d, notes[g:h], &st); err != nil {
+				return d, st, err
 			}
 			g = h
 		}
 	}
-	return e.finishPerformance(&o, notes[g:], &st)
+	return e.finishPerformance(&o, d, notes[g:], &st)
 }
 
 // Outcomes of quantize.
@@ -160,40 +162,49 @@ func (e *Encoder) quantizeError(n *ingest.Note, i int) error {
 }
 
 // finishPerformance emits the last group, the remaining note-offs and the end token.
-func (e *Encoder) finishPerformance(o *perfOut, last []pnote, st *Stats) ([]Token, Stats, error) {
+func (e *Encoder) finishPerformance(o *perfOut, d []Token, last []pnote, st *Stats) ([]Token, Stats, error) {
 	if len(last) > 0 {
-		if err := e.emitGroup(o, last, st); err != nil {
-			return o.dst, *st, err
+		var err error
+		if d, err = e.emitGroup(o, d, last, st); err != nil {
+			return d, *st, err
 		}
 	}
-	if !o.offsBefore(math.MaxUint64) {
-		return o.dst, *st, errStreamTooLong()
+	var ok bool
+	if d, ok = o.offsBefore(d, math.MaxUint64); !ok {
+		return d, *st, errStreamTooLong()
 	}
 	e.offs = o.offq
 	st.Encoded = st.Notes - st.DrumsDropped - st.OutOfRange - st.Merged
 	ms := int32(o.cur * o.shiftMS)
-	o.dst = put(o.dst, EndID, ms, ms, -1, -1)
-	st.Tokens = len(o.dst) - o.start
-	return o.dst, *st, nil
+	d = put(d, EndID, ms, ms, -1, -1)
+	st.Tokens = len(d) - o.start
+	return d, *st, nil
 }
 
-// emitGroup emits the notes that start at one step.
-func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
+// emitGroup emits the notes that start at one step, appending to d.
+//
+// The token slice is passed and returned rather than kept in perfOut, and buffers
+// are stored back only when they grow: a slice stored through a pointer costs a
+// write barrier each time while the collector runs, which it often does while
+// ingest allocates.
+func (e *Encoder) emitGroup(o *perfOut, d []Token, group []pnote, st *Stats) ([]Token, error) {
 	voc := e.vocab
 	s := group[0].on
 	// Order the group by key, a note before a hit of the same key, through sort keys
 	// that carry the note's index (so notes of one key stay in piece order).
-	keys := e.keys[:0]
+	if cap(e.keys) < len(group) {
+		e.keys = make([]uint64, 0, 2*len(group))
+	}
+	keys := e.keys[:len(group)]
 	for i := range group {
 		n := &group[i]
 		k := uint64(n.pitch)<<33 | uint64(uint32(i))
 		if n.drum {
 			k |= 1 << 32
 		}
-		keys = append(keys, k)
+		keys[i] = k
 	}
 	sortKeys(keys)
-	e.keys = keys
 	// One note per key at a time: at the same onset keep the longest (then the
 	// loudest, then the lowest program, so piece order does not matter); a key still
 	// sounding past this onset ends here (retrigger).
@@ -215,12 +226,16 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 		}
 		kept = append(kept, key)
 	}
-	if !o.offsBefore(uint64(s+1)<<offStepShift) || !o.advance(s) {
-		return errStreamTooLong()
+	d, ok := o.offsBefore(d, uint64(s+1)<<offStepShift)
+	if ok {
+		d, ok = o.advance(d, s)
+	}
+	if !ok {
+		return d, errStreamTooLong()
 	}
 	ms := int32(o.cur * o.shiftMS)
-	d, vel := o.dst, o.curVel // locals stay in registers
-	zero := false             // a note of zero length, whose note-off follows all note-ons
+	vel := o.curVel
+	zero := false // a note of zero length, whose note-off follows all note-ons
 	for _, key := range kept {
 		n := &group[uint32(key)]
 		if int(n.vel) != vel {
@@ -246,11 +261,11 @@ func (e *Encoder) emitGroup(o *perfOut, group []pnote, st *Stats) error {
 			}
 		}
 	}
-	o.dst, o.curVel = d, vel
-	if len(o.dst)-o.start > MaxStreamTokens {
-		return errStreamTooLong()
+	o.curVel = vel
+	if len(d)-o.start > MaxStreamTokens {
+		return d, errStreamTooLong()
 	}
-	return nil
+	return d, nil
 }
 
 func errStreamTooLong() error {
@@ -259,21 +274,22 @@ func errStreamTooLong() error {
 
 // perfOut is the output state of the performance encoder.
 type perfOut struct {
-	dst               []Token
 	start             int
 	cur               int64 // current time in steps
 	maxSteps, shiftMS int64
 	curVel            int // current velocity bin, -1 before the first
 	shiftBase         int32
 	offBase           int32
-	offq              []uint64 // pending note-offs, sorted from offq[head] on
-	head              int
-	keyOff            [128]int64 // off step of each key's latest note
+	// offq[head:qlen] are the pending note-offs, sorted; offq is its whole buffer
+	// and is stored back only when it grows.
+	offq       []uint64
+	head, qlen int
+	keyOff     [128]int64 // off step of each key's latest note
 }
 
 // retrigger moves the pending note-off of key (the note sounding past step) to step.
 func (o *perfOut) retrigger(key uint8, step int64) {
-	q := o.offq
+	q := o.offq[:o.qlen]
 	for i := o.head; i < len(q); i++ {
 		if k := q[i]; uint8(k>>offPitchShift) == key && int64(k>>offStepShift) > step {
 			k = packOff(step, key, int16(uint16(k)))
@@ -289,31 +305,34 @@ func (o *perfOut) retrigger(key uint8, step int64) {
 // pushOff queues a note-off. Notes arrive by onset and most end after the ones
 // already sounding, so the insertion point is usually at or near the end.
 func (o *perfOut) pushOff(k uint64) {
-	q, h := o.offq, o.head
-	if h >= 64 && 2*h >= len(q) {
-		q = q[:copy(q, q[h:])]
+	q, h, n := o.offq, o.head, o.qlen
+	if h >= 64 && 2*h >= n {
+		n = copy(q, q[h:n])
 		h = 0
 	}
-	q = append(q, k)
-	i := len(q) - 1
+	if n == len(q) {
+		q = slices.Grow(q[:n], 1)
+		q = q[:cap(q)]
+		o.offq = q
+	}
+	i := n
 	for ; i > h && q[i-1] > k; i-- {
 		q[i] = q[i-1]
 	}
 	q[i] = k
-	o.offq, o.head = q, h
+	o.head, o.qlen = h, n+1
 }
 
-// advance emits the time-shifts up to step; false when the stream would grow past
-// MaxStreamTokens.
-func (o *perfOut) advance(to int64) bool {
+// advance appends the time-shifts up to step to d; false when the stream would grow
+// past MaxStreamTokens.
+func (o *perfOut) advance(d []Token, to int64) ([]Token, bool) {
 	gap := to - o.cur
 	if gap <= 0 {
-		return true
+		return d, true
 	}
-	if gap > o.maxSteps && (len(o.dst)-o.start)+int(gap/o.maxSteps) > MaxStreamTokens {
-		return false
+	if gap > o.maxSteps && (len(d)-o.start)+int(gap/o.maxSteps) > MaxStreamTokens {
+		return d, false
 	}
-	d := o.dst
 	for gap > 0 {
 		n := min(gap, o.maxSteps)
 		o.cur += n
@@ -321,30 +340,30 @@ func (o *perfOut) advance(to int64) bool {
 		ms := int32(o.cur * o.shiftMS)
 		d = put(d, o.shiftBase+int32(n)-1, ms, ms, -1, -1)
 	}
-	o.dst = d
-	return true
+	return d, true
 }
 
-// offsBefore emits the pending note-offs packed below lim, with the shifts between
-// them.
-func (o *perfOut) offsBefore(lim uint64) bool {
-	q, h := o.offq, o.head
+// offsBefore appends the pending note-offs packed below lim to d, with the shifts
+// between them.
+func (o *perfOut) offsBefore(d []Token, lim uint64) ([]Token, bool) {
+	q, h := o.offq[:o.qlen], o.head
 	for h < len(q) && q[h] < lim {
 		k := q[h]
 		h++
-		if !o.advance(int64(k >> offStepShift)) {
+		var ok bool
+		if d, ok = o.advance(d, int64(k>>offStepShift)); !ok {
 			o.head = h
-			return false
+			return d, false
 		}
 		ms := int32(o.cur * o.shiftMS)
 		pitch := int16(uint8(k >> offPitchShift))
-		o.dst = put(o.dst, o.offBase+int32(pitch), ms, ms, pitch, int16(uint16(k)))
+		d = put(d, o.offBase+int32(pitch), ms, ms, pitch, int16(uint16(k)))
 	}
 	if h == len(q) {
-		q, h = q[:0], 0
+		h, o.qlen = 0, 0
 	}
-	o.offq, o.head = q, h
-	return true
+	o.head = h
+	return d, true
 }
 
 // sortKeys sorts the sort keys of one onset group: insertion sort for the usual
