@@ -8,14 +8,17 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
+	"maps"
 	"os"
 	"path"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
 
 	"github.com/parquet-go/parquet-go"
+	"golang.org/x/sync/errgroup"
 )
 
 // Problem is one finding of Verify.
@@ -43,26 +46,59 @@ const maxProblemsPerShard = 20
 // max_len tokens, pitches in −1..127, the split column and the split the ratio rule
 // gives the content hash; across shards, that no content hash appears in two
 // splits and no piece in two parts; and that the totals equal the manifest. It
-// returns the problems found (none for a sound dataset); the error is for a folder
-// that cannot be checked at all (no readable manifest) or a cancelled context.
+// returns the problems found (none for a sound dataset), in manifest order; the
+// error is for a folder that cannot be checked at all (no readable manifest) or a
+// cancelled context. Shards are read on all cores.
 func Verify(ctx context.Context, dir string) ([]Problem, error) {
 	m, err := ReadManifest(dir)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", dir, err)
 	}
-	v := &verifier{m: m, dir: dir, hashSplit: map[string]string{}, pieces: map[string]string{}, piecePart: map[string]string{}}
+	v := &verifier{m: m, dir: dir, hashSplit: map[string]string{}, pieces: map[string]string{}, piecePart: map[string]string{},
+		splitRows: map[string]int64{}}
 	v.checkManifest()
 	seen := map[string]bool{}
-	for _, sh := range m.Shards {
-		if err := ctx.Err(); err != nil {
-			return v.problems, err
-		}
+	var todo []int
+	for i, sh := range m.Shards {
 		if seen[sh.Path] {
 			v.add(sh.Path, -1, "listed twice in the manifest")
 			continue
 		}
 		seen[sh.Path] = true
-		v.shard(sh)
+		todo = append(todo, i)
+	}
+	// Shards are read on all cores; their findings are joined in manifest order,
+	// so the report is the same whatever the timing.
+	checks := make([]*shardCheck, len(m.Shards))
+	next := make(chan int)
+	g, gctx := errgroup.WithContext(ctx)
+	for range min(runtime.NumCPU(), max(1, len(todo))) {
+		g.Go(func() error {
+			for i := range next {
+				checks[i] = v.shard(m.Shards[i])
+			}
+			return nil
+		})
+	}
+	g.Go(func() error {
+		defer close(next)
+		for _, i := range todo {
+			select {
+			case next <- i:
+			case <-gctx.Done():
+				return gctx.Err()
+			}
+		}
+		return nil
+	})
+	if err := g.Wait(); err != nil {
+		return v.problems, err
+	}
+	if err := ctx.Err(); err != nil {
+		return v.problems, err
+	}
+	for _, i := range todo {
+		v.join(checks[i])
 	}
 	v.checkTotals()
 	v.checkStrays(seen)
@@ -79,6 +115,63 @@ type verifier struct {
 	rows      int64
 	tokens    int64
 	splitRows map[string]int64
+}
+
+// shardCheck holds what reading one shard found.
+type shardCheck struct {
+	sh       Shard
+	problems []Problem
+	rows     int64
+	tokens   int64
+	part     string               // part tag of the shard name, "" for a single run
+	hashes   map[string]firstSeen // content hash → where it first appears in the shard
+	pieces   map[string]firstSeen // piece → where it first appears in the shard
+	reported int
+}
+
+type firstSeen struct {
+	split string
+	row   int64
+}
+
+func (c *shardCheck) add(row int64, format string, a ...any) {
+	c.problems = append(c.problems, Problem{Path: c.sh.Path, Row: row, Msg: fmt.Sprintf(format, a...)})
+}
+
+// bad adds a row problem, up to maxProblemsPerShard of them.
+func (c *shardCheck) bad(row int64, format string, a ...any) {
+	if c.reported < maxProblemsPerShard {
+		c.add(row, format, a...)
+	}
+	c.reported++
+}
+
+// join adds one shard's findings, checking its content hashes and pieces against
+// those of the shards before it.
+func (v *verifier) join(c *shardCheck) {
+	v.problems = append(v.problems, c.problems...)
+	v.rows += c.rows
+	v.tokens += c.tokens
+	v.splitRows[c.sh.Split] += c.rows
+	for _, h := range slices.Sorted(maps.Keys(c.hashes)) {
+		f := c.hashes[h]
+		if s, ok := v.hashSplit[h]; !ok {
+			v.hashSplit[h] = f.split
+		} else if s != f.split {
+			v.add(c.sh.Path, f.row, "content hash %s is in both %s and %s: splits not disjoint", h, s, f.split)
+		}
+	}
+	for _, p := range slices.Sorted(maps.Keys(c.pieces)) {
+		f := c.pieces[p]
+		if s, ok := v.pieces[p]; !ok {
+			v.pieces[p] = f.split
+			v.piecePart[p] = c.part
+		} else if v.piecePart[p] != c.part {
+			v.add(c.sh.Path, f.row, "piece %s appears in parts %q and %q", p, v.piecePart[p], c.part)
+		} else if s != f.split {
+			v.add(c.sh.Path, f.row, "piece %s is in both %s and %s", p, s, f.split)
+		}
+	}
 }
 
 func (v *verifier) add(p string, row int64, format string, a ...any) {
@@ -118,107 +211,97 @@ var expectedSchema = parquet.SchemaOf(Row{})
 
 // shard checks one shard; a panic of the Parquet reader on a damaged file becomes
 // a problem.
-func (v *verifier) shard(sh Shard) {
+func (v *verifier) shard(sh Shard) (c *shardCheck) {
+	c = &shardCheck{sh: sh, hashes: map[string]firstSeen{}, pieces: map[string]firstSeen{}}
 	defer func() {
 		if r := recover(); r != nil {
-			v.add(sh.Path, -1, "Parquet reader failed: %v", r)
+			c.add(-1, "Parquet reader failed: %v", r)
 		}
 	}()
 	p, err := localPath(v.dir, sh.Path)
 	if err != nil {
-		v.add(sh.Path, -1, "%v", err)
-		return
+		c.add(-1, "%v", err)
+		return c
 	}
 	if !slices.Contains(Splits[:], sh.Split) {
-		v.add(sh.Path, -1, "unknown split %q", sh.Split)
+		c.add(-1, "unknown split %q", sh.Split)
 	}
 	if dir := path.Dir(sh.Path); dir != sh.Split {
-		v.add(sh.Path, -1, "in folder %q, want the split's folder %q", dir, sh.Split)
+		c.add(-1, "in folder %q, want the split's folder %q", dir, sh.Split)
 	}
 	size, sum, err := fileSHA256(p)
 	if err != nil {
-		v.add(sh.Path, -1, "%v", err)
-		return
+		c.add(-1, "%v", err)
+		return c
 	}
 	if size != sh.Bytes || sum != sh.SHA256 {
 		if size != sh.Bytes {
-			v.add(sh.Path, -1, "size %d bytes, manifest says %d", size, sh.Bytes)
+			c.add(-1, "size %d bytes, manifest says %d", size, sh.Bytes)
 		}
 		if sum != sh.SHA256 {
-			v.add(sh.Path, -1, "sha256 %s, manifest says %s", sum, sh.SHA256)
+			c.add(-1, "sha256 %s, manifest says %s", sum, sh.SHA256)
 		}
 		// Not the file that was written: its bytes are not handed to the Parquet
 		// reader, which is not hardened against arbitrary damage.
-		v.add(sh.Path, -1, "contents not checked: the file differs from the one written")
-		return
+		c.add(-1, "contents not checked: the file differs from the one written")
+		return c
 	}
 	f, err := os.Open(p)
 	if err != nil {
-		v.add(sh.Path, -1, "%v", err)
-		return
+		c.add(-1, "%v", err)
+		return c
 	}
 	defer f.Close()
 	pf, err := parquet.OpenFile(f, size)
 	if err != nil {
-		v.add(sh.Path, -1, "not a readable Parquet file: %v", err)
-		return
+		c.add(-1, "not a readable Parquet file: %v", err)
+		return c
 	}
 	if !parquet.EqualNodes(pf.Schema(), expectedSchema) {
-		v.add(sh.Path, -1, "schema differs from schema version %d:\n%s", SchemaVersion, pf.Schema())
-		return
+		c.add(-1, "schema differs from schema version %d:\n%s", SchemaVersion, pf.Schema())
+		return c
 	}
-	v.checkMeta(sh, pf)
+	v.checkMeta(c, pf)
 	if pf.NumRows() != sh.Rows {
-		v.add(sh.Path, -1, "%d rows, manifest says %d", pf.NumRows(), sh.Rows)
+		c.add(-1, "%d rows, manifest says %d", pf.NumRows(), sh.Rows)
 	}
-	part := ""
 	if base := path.Base(sh.Path); shardPattern.MatchString(base) {
 		if rest := strings.TrimPrefix(base, sh.Split+"-"); strings.HasPrefix(rest, "p") {
-			part, _, _ = strings.Cut(rest, "-")
+			c.part, _, _ = strings.Cut(rest, "-")
 		}
 	}
 	r := parquet.NewGenericReader[Row](pf)
 	defer r.Close()
 	batch := make([]Row, 128)
 	var row, tokens int64
-	reported := 0
-	bad := func(row int64, format string, a ...any) {
-		if reported < maxProblemsPerShard {
-			v.add(sh.Path, row, format, a...)
-		}
-		reported++
-	}
 	for {
 		n, err := r.Read(batch)
 		for i := range batch[:n] {
 			rw := &batch[i]
 			tokens += int64(len(rw.Tokens))
-			v.checkRow(sh, rw, row, part, bad)
+			v.checkRow(c, rw, row)
 			row++
 		}
 		if errors.Is(err, io.EOF) {
 			break
 		}
 		if err != nil {
-			v.add(sh.Path, row, "read: %v", err)
+			c.add(row, "read: %v", err)
 			return
 		}
 	}
-	if reported > maxProblemsPerShard {
-		v.add(sh.Path, -1, "%d more row problems not shown", reported-maxProblemsPerShard)
+	if c.reported > maxProblemsPerShard {
+		c.add(-1, "%d more row problems not shown", c.reported-maxProblemsPerShard)
 	}
 	if tokens != sh.Tokens {
-		v.add(sh.Path, -1, "%d tokens, manifest says %d", tokens, sh.Tokens)
+		c.add(-1, "%d tokens, manifest says %d", tokens, sh.Tokens)
 	}
-	v.rows += row
-	v.tokens += tokens
-	if v.splitRows == nil {
-		v.splitRows = map[string]int64{}
-	}
-	v.splitRows[sh.Split] += row
+	c.rows, c.tokens = row, tokens
+	return c
 }
 
-func (v *verifier) checkMeta(sh Shard, pf *parquet.File) {
+func (v *verifier) checkMeta(c *shardCheck, pf *parquet.File) {
+	sh := c.sh
 	want := map[string]string{
 		MetaSchemaVersion: strconv.Itoa(SchemaVersion),
 		MetaConfigHash:    v.m.ConfigHash,
@@ -229,9 +312,9 @@ func (v *verifier) checkMeta(sh Shard, pf *parquet.File) {
 	for _, k := range []string{MetaSchemaVersion, MetaConfigHash, MetaSplit, MetaEncoding, MetaTimeUnit} {
 		got, ok := pf.Lookup(k)
 		if !ok {
-			v.add(sh.Path, -1, "metadata key %s missing", k)
+			c.add(-1, "metadata key %s missing", k)
 		} else if got != want[k] {
-			v.add(sh.Path, -1, "metadata %s = %q, want %q", k, got, want[k])
+			c.add(-1, "metadata %s = %q, want %q", k, got, want[k])
 		}
 	}
 	for _, k := range []struct {
@@ -240,16 +323,17 @@ func (v *verifier) checkMeta(sh Shard, pf *parquet.File) {
 	}{{MetaVocabulary, v.m.Vocabulary}, {MetaBuckets, v.m.Buckets}} {
 		got, ok := pf.Lookup(k.key)
 		if !ok {
-			v.add(sh.Path, -1, "metadata key %s missing", k.key)
+			c.add(-1, "metadata key %s missing", k.key)
 			continue
 		}
 		if !jsonEqual([]byte(got), k.want) {
-			v.add(sh.Path, -1, "metadata %s differs from the manifest", k.key)
+			c.add(-1, "metadata %s differs from the manifest", k.key)
 		}
 	}
 }
 
-func (v *verifier) checkRow(sh Shard, rw *Row, row int64, part string, bad func(int64, string, ...any)) {
+func (v *verifier) checkRow(c *shardCheck, rw *Row, row int64) {
+	sh, bad := c.sh, c.bad
 	n := len(rw.Tokens)
 	if len(rw.Time) != n || len(rw.Pitch) != n || len(rw.Inst) != n {
 		bad(row, "list lengths differ: tokens %d, time %d, pitch %d, inst %d", n, len(rw.Time), len(rw.Pitch), len(rw.Inst))
@@ -284,18 +368,15 @@ func (v *verifier) checkRow(sh Shard, rw *Row, row int64, part string, bad func(
 	if want := SplitOf(rw.ContentHash, v.m.Config.Shards.Splits); rw.Split != want {
 		bad(row, "content hash %s belongs to %s by the split rule, row says %s", rw.ContentHash, want, rw.Split)
 	}
-	if s, ok := v.hashSplit[rw.ContentHash]; !ok {
-		v.hashSplit[rw.ContentHash] = rw.Split
-	} else if s != rw.Split {
-		bad(row, "content hash %s is in both %s and %s: splits not disjoint", rw.ContentHash, s, rw.Split)
+	if f, ok := c.hashes[rw.ContentHash]; !ok {
+		c.hashes[rw.ContentHash] = firstSeen{rw.Split, row}
+	} else if f.split != rw.Split {
+		bad(row, "content hash %s is in both %s and %s: splits not disjoint", rw.ContentHash, f.split, rw.Split)
 	}
-	if s, ok := v.pieces[rw.Piece]; !ok {
-		v.pieces[rw.Piece] = rw.Split
-		v.piecePart[rw.Piece] = part
-	} else if v.piecePart[rw.Piece] != part {
-		bad(row, "piece %s appears in parts %q and %q", rw.Piece, v.piecePart[rw.Piece], part)
-	} else if s != rw.Split {
-		bad(row, "piece %s is in both %s and %s", rw.Piece, s, rw.Split)
+	if f, ok := c.pieces[rw.Piece]; !ok {
+		c.pieces[rw.Piece] = firstSeen{rw.Split, row}
+	} else if f.split != rw.Split {
+		bad(row, "piece %s is in both %s and %s", rw.Piece, f.split, rw.Split)
 	}
 }
 
