@@ -112,6 +112,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	notes := e.gnotes[:0]
 	maxDur := int64(e.cfg.MaxDurationSteps)
 	sorted := true
+	lastTick, lastStep := int64(-1), int64(0) // notes of a chord share their start
 	for i := range p.Notes {
 		n := &p.Notes[i]
 		if n.Drum && e.dropDrums {
@@ -132,7 +133,10 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			}
 			return dst, st, fmt.Errorf("encode: %w: note %d has ticks %d..%d", ErrBadPiece, i, n.StartTick, n.EndTick)
 		}
-		s := e.stepOf(n.StartTick)
+		if n.StartTick != lastTick {
+			lastTick, lastStep = n.StartTick, e.stepOf(n.StartTick)
+		}
+		s := lastStep
 		d := e.stepOf(n.EndTick) - s
 		if d < 1 {
 			d = 1
