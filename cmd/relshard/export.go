@@ -367,7 +367,7 @@ func printSummary(s *streams, m *export.Manifest, dir string) error {
 		st := t.Splits[sp]
 		fmt.Fprintf(&b, "%-10s %8d pieces %10d windows %12d tokens %5d shards\n", sp, st.Pieces, st.Windows, st.Tokens, st.Shards)
 	}
-	fmt.Fprintf(&b, "config %s, encoding %s, vocabulary %d, time unit %s\n", m.ConfigHash[:12], m.Encoding, m.VocabSize, m.TimeUnit)
+	fmt.Fprintf(&b, "config %s, encoding %s, vocabulary %d, time unit %s\n", m.ConfigHash[:min(12, len(m.ConfigHash))], m.Encoding, m.VocabSize, m.TimeUnit)
 	datasets := map[string]bool{}
 	for _, f := range m.Files {
 		datasets[f.Dataset] = true
