@@ -48,14 +48,14 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
 		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
 	d := put(dst, BeginID, 0, 0, -1, -1)
-	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS) // seconds to steps
+	q := quantizer{scale: 1000 * v.Stretch / float64(e.cfg.ShiftMS), transpose: v.Transpose, lastStart: math.NaN()}
 	// The next note is quantized straight into the slot after the group, so it is
 	// never copied: a note of the next onset then moves to the group's start.
 	group := e.pnotes[:0]
 	for i := range p.Notes {
 		group = append(group, pnote{})
 		pn := &group[len(group)-1]
-		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, pn) {
+		switch e.quantize(&p.Notes[i], &q, &st, pn) {
 		case qSkip:
 			group = group[:len(group)-1]
 			continue
@@ -89,11 +89,11 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
 		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
 	d := put(dst, BeginID, 0, 0, -1, -1)
-	scale := 1000 * v.Stretch / float64(e.cfg.ShiftMS)
+	q := quantizer{scale: 1000 * v.Stretch / float64(e.cfg.ShiftMS), transpose: v.Transpose, lastStart: math.NaN()}
 	notes := e.pnotes[:0]
 	for i := range p.Notes {
 		notes = append(notes, pnote{})
-		switch e.quantize(&p.Notes[i], v.Transpose, scale, &st, &notes[len(notes)-1]) {
+		switch e.quantize(&p.Notes[i], &q, &st, &notes[len(notes)-1]) {
 		case qBad:
 			e.pnotes = notes
 			return dst, st, e.quantizeError(&p.Notes[i], i)
@@ -125,7 +125,8 @@ const (
 
 // quantize turns one note into shift steps in *out. It stores field by field, for
 // the reason put does.
-func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Stats, out *pnote) int {
+func (e *Encoder) quantize(n *ingest.Note, q *quantizer, st *Stats, out *pnote) int {
+	scale := q.scale
 	if n.Drum {
 		if e.dropDrums {
 			st.DrumsDropped++
@@ -135,11 +136,11 @@ func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Sta
 		if !(on >= 0) || !(n.End >= n.Start) || n.End*scale*float64(e.cfg.ShiftMS) > maxMS {
 			return qBad
 		}
-		s := int64(math.Round(on))
+		s := q.onStep(n.Start, on)
 		out.on, out.off, out.pitch, out.vel, out.drum, out.inst = s, s, n.Pitch, e.vocab.velBins[n.Velocity&127], true, InstDrums
 		return qOK
 	}
-	pitch := int(n.Pitch) + transpose
+	pitch := int(n.Pitch) + q.transpose
 	if pitch < 0 || pitch > 127 {
 		st.OutOfRange++
 		return qSkip
@@ -148,9 +149,26 @@ func (e *Encoder) quantize(n *ingest.Note, transpose int, scale float64, st *Sta
 	if !(on >= 0) || !(off >= on) || off*float64(e.cfg.ShiftMS) > maxMS {
 		return qBad
 	}
-	out.on, out.off, out.pitch = int64(math.Round(on)), int64(math.Round(off)), uint8(pitch)
+	out.on, out.off, out.pitch = q.onStep(n.Start, on), int64(math.Round(off)), uint8(pitch)
 	out.vel, out.drum, out.inst = e.vocab.velBins[n.Velocity&127], false, int16(n.Program)
 	return qOK
+}
+
+// quantizer holds what quantize needs for one variant, and the onset step of the
+// last note: the notes of a chord share their start, so it is rounded once.
+type quantizer struct {
+	scale     float64 // seconds to steps
+	transpose int
+	lastStart float64 // NaN before the first note
+	lastOn    int64
+}
+
+// onStep is the step of a note starting at start seconds, on = start*scale.
+func (q *quantizer) onStep(start, on float64) int64 {
+	if start != q.lastStart {
+		q.lastStart, q.lastOn = start, int64(math.Round(on))
+	}
+	return q.lastOn
 }
 
 // quantizeError describes why note i could not be quantized.
