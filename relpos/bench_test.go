@@ -130,3 +130,25 @@ func BenchmarkCountJoint(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkCountDefault counts an L = 2048 performance-encoding-like window with
+// DefaultConfig (distance linear clip 64 and log 32/128, time log 32/2048, pitch linear
+// clip 24, instrument breakdown on, causal): the counting that export does per window.
+func BenchmarkCountDefault(b *testing.B) {
+	c, err := NewCounter(DefaultConfig())
+	if err != nil {
+		b.Fatal(err)
+	}
+	tokens := benchWindow(2048)
+	tally := c.NewTally()
+	if err := c.Count(tally, tokens); err != nil { // grow the scratch buffers once
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	b.SetBytes(int64(len(tokens)))
+	for b.Loop() {
+		if err := c.Count(tally, tokens); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

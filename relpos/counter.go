@@ -3,6 +3,8 @@ package relpos
 import (
 	"fmt"
 	"math"
+	"math/bits"
+	"sort"
 
 	"github.com/relshard/relshard/tokenize"
 )
@@ -37,6 +39,8 @@ type Counter struct {
 	// cuts are the offsets x ≤ 0, ascending, at which kinds counted by pointers (time;
 	// distance within an instrument class) record the number of pairs with Δ < x.
 	cuts [numKinds][]int64
+	// cutIdx[k][d] is the last index i with cuts[k][i] ≤ −d, for d up to a table size.
+	cutIdx [numKinds][]int32
 	// mags are the magnitudes a at which the number of pairs with |Δ| ≤ a is known on
 	// pointer-counted kinds: every a ≤ exact, then steps of max(1, a/12).
 	mags []int64
@@ -52,7 +56,9 @@ type Counter struct {
 	val, pos   []int64
 	pit        []int16
 	gval, gpre []int64
-	gcnt       []int64
+	gcnt, gbin []int64
+	words      []uint64
+	hist       []int64
 }
 
 // DefaultExact is the default Config.ExactUpTo: the largest magnitude up to which quantiles
@@ -124,6 +130,7 @@ func NewCounter(cfg Config) (*Counter, error) {
 			}
 		}
 		c.cuts[k] = sortedUnique(keep)
+		c.cutIdx[k] = cutTable(c.cuts[k], exactMags)
 	}
 	c.bounds = sortedUnique(append(append([]int64(nil), c.mags...), c.budgetMags(Time)...))
 	if cfg.Joint {
@@ -343,7 +350,7 @@ func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
 		c.val = append(c.val, int64(tk.Time))
 	}
 	all.pairs[Time] += P
-	c.countPointers(c.val, c.cuts[Time], all.below[Time], all.small[Time], &all.maxAbs[Time])
+	c.countPointers(c.val, c.cuts[Time], c.cutIdx[Time], all.below[Time], all.small[Time], &all.maxAbs[Time])
 
 	// Pitch: running histogram.
 	c.pit = c.pit[:0]
@@ -396,21 +403,89 @@ func (c *Counter) countClass(s *stream, tokens []tokenize.Token, cl Class) {
 	P := pairCount(m, c.cfg.Pairs)
 	s.pairs[Distance] += P
 	s.pairs[Time] += P
-	c.countPointers(c.pos, c.cuts[Distance], s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
-	c.countPointers(c.val, c.cuts[Time], s.below[Time], s.small[Time], &s.maxAbs[Time])
+	c.countPositions(c.pos, s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
+	c.countPointers(c.val, c.cuts[Time], c.cutIdx[Time], s.below[Time], s.small[Time], &s.maxAbs[Time])
 	s.pairs[Pitch] += countPitch(c.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
 }
+
+// countPositions counts, as countPointers does, the pairs of the distinct increasing
+// window positions pos of a class's tokens by token distance. When the class is dense in
+// its span, the exact histogram of distances is cheaper from a bitset: the pairs at
+// distance d are popcount(B & B<<d), a word at a time, and every cut is then one suffix
+// sum of that histogram.
+func (c *Counter) countPositions(pos, below, small []int64, maxAbs *int64) {
+	m := len(pos)
+	if m == 0 {
+		return
+	}
+	cuts, idx := c.cuts[Distance], c.cutIdx[Distance]
+	span := pos[m-1] - pos[0]
+	first, split := splitCuts(cuts, idx, m, span)
+	g := float64(m)
+	walk := g * g / 2 * min(1, float64(-cuts[min(split, len(cuts)-1)])/float64(span))
+	var ptr float64
+	for k := first; k < split; k++ {
+		ptr += 2 * g * (1 - float64(-cuts[k])/float64(span))
+	}
+	// The bitset's word loop runs about span²/128 times; one step of it does about as
+	// much as bitsetStep steps of the walk or the pointers.
+	if float64(span)*float64(span)/128*bitsetStep >= walk+ptr {
+		c.countPointers(pos, cuts, idx, below, small, maxAbs)
+		return
+	}
+	*maxAbs = max(*maxAbs, span)
+	nw := int(span>>6) + 1
+	words := c.words[:0]
+	for range nw {
+		words = append(words, 0)
+	}
+	c.words = words
+	for _, p := range pos {
+		q := p - pos[0]
+		words[q>>6] |= 1 << (q & 63)
+	}
+	hist := c.hist[:0]
+	hist = append(hist, 0)
+	for d := int64(1); d <= span; d++ {
+		q, r := int(d>>6), uint(d&63)
+		var n int
+		var prev uint64 // the word before words[i-q]
+		for i, w := range words[q:] {
+			src := words[i]
+			n += bits.OnesCount64(w & (src<<r | prev>>(64-r)))
+			prev = src
+		}
+		hist = append(hist, int64(n))
+	}
+	c.hist = hist
+	for a := int64(1); a <= min(c.exact, span); a++ {
+		small[a] += hist[a]
+	}
+	// hist[d] becomes the pairs at distance > d: those below the cut −d.
+	var run int64
+	for d := span; d >= 1; d-- {
+		run, hist[d] = run+hist[d], run
+	}
+	for k := first; k < len(cuts); k++ {
+		below[k] += hist[-cuts[k]]
+	}
+}
+
+// bitsetStep is the cost of one word step of the bitset histogram in walk steps.
+const bitsetStep = 1.0
 
 // countPointers counts the ordered pairs (i, j) of the non-decreasing values v by
 // their offset v[j] − v[i] < 0 (such pairs have j < i: they are causal pairs, and in
 // bidirectional mode the counts of positive offsets follow by symmetry):
-//   - small[a] += pairs at offset −a for 1 ≤ a ≤ c.exact, walking back from each value
-//     while the offset stays that small;
-//   - below[k] += pairs with offset < cuts[k] (all ≤ −c.exact), with one pointer per
-//     cut that moves forward as i does: O(len(v)) per cut.
+//   - small[a] += pairs at offset −a for 1 ≤ a ≤ c.exact;
+//   - below[k] += pairs with offset < cuts[k] (all ≤ −c.exact).
 //
-// Equal values are grouped first, so both cost O(distinct values) rather than O(len(v)).
-func (c *Counter) countPointers(v, cuts, below, small []int64, maxAbs *int64) {
+// Equal values are grouped first, so the cost depends on the G distinct values rather
+// than on len(v). The cuts near zero (magnitudes up to a split A, which always covers
+// c.exact) come from one walk over the pairs of groups at most A apart, binned by cut;
+// each farther cut takes one moving pointer over the groups that can reach below it.
+// A is chosen per call to minimise the estimated steps of the two; both are exact.
+func (c *Counter) countPointers(v, cuts []int64, idx []int32, below, small []int64, maxAbs *int64) {
 	n := len(v)
 	if n == 0 {
 		return
@@ -430,26 +505,127 @@ func (c *Counter) countPointers(v, cuts, below, small []int64, maxAbs *int64) {
 		pre = append(pre, pre[len(pre)-1]+m)
 	}
 	c.gval, c.gcnt, c.gpre = vals, cnts, pre
+	if span == 0 {
+		return // every pair has offset 0
+	}
+	first, split := splitCuts(cuts, idx, len(vals), span)
+	c.walkNear(vals, cnts, pre, cuts, idx, below, small, split)
+	for k := first; k < split; k++ {
+		below[k] += pointerBelow(vals, cnts, pre, cuts[k])
+	}
+}
+
+// splitCuts returns the first cut that any pair can lie below (cuts[k] > −span; the cuts
+// before it count nothing) and the split: cuts[split:] are counted by walkNear,
+// cuts[first:split] by pointers.
+func splitCuts(cuts []int64, idx []int32, groups int, span int64) (first, split int) {
+	first = sort.Search(len(cuts), func(i int) bool { return cuts[i] > -span })
+	split = len(cuts) - 1 // cuts end with −exact, always walked
+	if split < first {
+		return first, len(cuts)
+	}
+	// Estimated steps, values spread evenly over the span: the walk up to magnitude A
+	// visits about G²/2 · A/span group pairs; a pointer at cut x about G·(1 − |x|/span)
+	// groups, twice (the group loop and the pointer).
+	g := float64(groups)
+	walk := func(a int64) float64 { return g * g / 2 * min(1, float64(a)/float64(span)) }
+	var ptr float64
+	for k := first; k < split; k++ {
+		ptr += 2 * g * (1 - float64(-cuts[k])/float64(span))
+	}
+	best := walk(-cuts[split]) + ptr
+	for k := split - 1; k >= first; k-- {
+		a := -cuts[k]
+		if a >= int64(len(idx)) {
+			break // beyond the cut table
+		}
+		ptr -= 2 * g * (1 - float64(a)/float64(span))
+		if cost := walk(a) + ptr; cost < best {
+			best, split = cost, k
+		}
+	}
+	return first, split
+}
+
+// walkNear adds, for every pair of groups at most A = −cuts[split] apart (c.exact when
+// split = len(cuts)), its pairs to small (offsets down to −exact) and counts the
+// cuts[split:] from them: a pair at offset −d is not below cut x exactly when x ≤ −d,
+// that is for the cuts up to idx[d].
+func (c *Counter) walkNear(vals, cnts, pre, cuts []int64, idx []int32, below, small []int64, split int) {
+	a := c.exact
+	if split < len(cuts) {
+		a = -cuts[split]
+	}
+	bins := c.gbin[:0]
+	for range len(cuts) {
+		bins = append(bins, 0)
+	}
+	c.gbin = bins
+	last := len(cuts) - 1
+	var neg, nearExact int64 // pairs with offset < 0, and with −exact ≤ offset < 0
+	exact := c.exact
 	for g, x := range vals {
-		for h := g - 1; h >= 0 && x-vals[h] <= c.exact; h-- {
-			small[x-vals[h]] += cnts[g] * cnts[h]
-		}
-	}
-	for k, x := range cuts {
-		if x <= -span {
-			continue // vals[g] + x ≤ vals[0]: no key lies below
-		}
-		var sum int64
-		p := 0
-		for g, vg := range vals {
-			thr := vg + x
-			for vals[p] < thr { // stops at p ≤ g since vals[g] ≥ thr
-				p++
+		cg := cnts[g]
+		neg += cg * pre[g]
+		for h := g - 1; h >= 0; h-- {
+			d := x - vals[h]
+			if d > a {
+				break
 			}
-			sum += cnts[g] * pre[p]
+			w := cg * cnts[h]
+			if d <= exact {
+				small[d] += w
+				nearExact += w
+				continue
+			}
+			bins[idx[d]] += w
 		}
-		below[k] += sum
 	}
+	bins[last] += nearExact
+	var near int64 // pairs with −(−cuts[k]) ≤ offset < 0
+	for k := last; k >= split; k-- {
+		near += bins[k]
+		below[k] += neg - near
+	}
+}
+
+// cutTable returns, for 0 ≤ d ≤ min(max(maxTable, exact), −cuts[0]), the last cut k with
+// cuts[k] ≤ −d (cuts ascending, all ≤ −exact): the bin of a pair at offset −d in walkNear.
+func cutTable(cuts []int64, exact int64) []int32 {
+	if len(cuts) == 0 {
+		return nil
+	}
+	n := min(max(maxTable, exact), -cuts[0]) + 1
+	idx := make([]int32, n)
+	k := len(cuts) - 1
+	for d := range n {
+		for k >= 0 && cuts[k] > -d {
+			k--
+		}
+		idx[d] = int32(k)
+	}
+	return idx
+}
+
+// maxTable bounds the magnitudes that walkNear may walk to beyond Config.ExactUpTo.
+const maxTable = 1 << 15
+
+// pointerBelow returns the pairs of groups with offset < x (x < 0): for each group g, the
+// keys below vals[g] + x are the groups before a pointer that only moves forward. Groups
+// with vals[g] + x ≤ vals[0] have none and are skipped.
+func pointerBelow(vals, cnts, pre []int64, x int64) int64 {
+	lim := vals[0] - x
+	g := sort.Search(len(vals), func(i int) bool { return vals[i] > lim })
+	var sum int64
+	p := 0
+	for ; g < len(vals); g++ {
+		thr := vals[g] + x
+		for vals[p] < thr { // stops at p ≤ g since vals[g] ≥ thr
+			p++
+		}
+		sum += cnts[g] * pre[p]
+	}
+	return sum
 }
 
 // countPitch adds the pitch offsets of all pairs of the pitches p (in stream order) to
