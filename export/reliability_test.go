@@ -553,7 +553,9 @@ func leftovers(dir string) (shards, temps int) {
 
 // checkInterrupted checks what a killed run left: either a complete dataset (the run
 // had finished), or no manifest, a folder that does not verify, and only files a run
-// makes, each final-named shard a whole Parquet file (shards appear only complete).
+// makes (split folders, shards, temporaries, the marker and other ".relshard-" run
+// files at the top), each final-named shard a whole Parquet file (shards appear only
+// complete).
 func checkInterrupted(t *testing.T, k int, dir string) (finished bool) {
 	t.Helper()
 	if _, err := os.Stat(dir); errors.Is(err, fs.ErrNotExist) {
@@ -579,6 +581,8 @@ func checkInterrupted(t *testing.T, k int, dir string) (finished bool) {
 				t.Errorf("kill %d: stray folder %s", k, rel)
 			}
 		case strings.HasSuffix(name, TempSuffix), rel == MarkerName:
+		case !strings.Contains(rel, "/") && strings.HasPrefix(name, ".relshard-"):
+			// The run's own bookkeeping beside the marker (a journal of finished shards).
 		case shardPattern.MatchString(name):
 			f, err := os.Open(p)
 			if err != nil {
