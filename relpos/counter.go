@@ -58,6 +58,7 @@ type Counter struct {
 	gval, gpre []int64
 	gcnt, gbin []int64
 	words      []uint64
+	tab        []int32
 	hist       []int64
 }
 
@@ -409,32 +410,50 @@ func (c *Counter) countClass(s *stream, tokens []tokenize.Token, cl Class) {
 }
 
 // countPositions counts, as countPointers does, the pairs of the distinct increasing
-// window positions pos of a class's tokens by token distance. When the class is dense in
-// its span, the exact histogram of distances is cheaper from a bitset: the pairs at
-// distance d are popcount(B & B<<d), a word at a time, and every cut is then one suffix
-// sum of that histogram.
+// window positions pos of a class's tokens by token distance, in two exact parts split at
+// a distance A chosen per call to minimise the estimated steps:
+//   - distances d ≤ A from a bitset B of the positions: the pairs at distance d are
+//     popcount(B & B<<d), a word at a time; small and the cuts down to −A follow from
+//     this histogram;
+//   - each farther cut −a from a table R[y] of the positions at most y: the pairs at
+//     distance > a are Σ R[q − a − 1] over the positions q > a, with no search.
 func (c *Counter) countPositions(pos, below, small []int64, maxAbs *int64) {
 	m := len(pos)
 	if m == 0 {
 		return
 	}
-	cuts, idx := c.cuts[Distance], c.cutIdx[Distance]
+	cuts := c.cuts[Distance]
 	span := pos[m-1] - pos[0]
-	first, split := splitCuts(cuts, idx, m, span)
-	g := float64(m)
-	walk := g * g / 2 * min(1, float64(-cuts[min(split, len(cuts)-1)])/float64(span))
-	var ptr float64
-	for k := first; k < split; k++ {
-		ptr += 2 * g * (1 - float64(-cuts[k])/float64(span))
-	}
-	// The bitset's word loop runs about span²/128 times; one step of it does about as
-	// much as bitsetStep steps of the walk or the pointers.
-	if float64(span)*float64(span)/128*bitsetStep >= walk+ptr {
-		c.countPointers(pos, cuts, idx, below, small, maxAbs)
+	*maxAbs = max(*maxAbs, span)
+	if span == 0 {
 		return
 	}
-	*maxAbs = max(*maxAbs, span)
+	first := sort.Search(len(cuts), func(i int) bool { return cuts[i] > -span })
 	nw := int(span>>6) + 1
+	// Steps: the bitset costs about nw − d/64 words at distance d; a far cut −a about
+	// m·(1 − a/span) lookups. Walk the split outward from c.exact, the least it may be.
+	bitset := func(a int64) float64 {
+		a = min(a, span)
+		return float64(a) * (float64(nw) - float64(a)/128)
+	}
+	split := len(cuts) // cuts[split:] are within A
+	for split > first && -cuts[split-1] <= c.exact {
+		split--
+	}
+	var far float64
+	for k := first; k < split; k++ {
+		far += float64(m) * (1 - float64(-cuts[k])/float64(span))
+	}
+	a := c.exact
+	best := bitset(a) + far
+	for k := split - 1; k >= first; k-- {
+		far -= float64(m) * (1 - float64(-cuts[k])/float64(span))
+		if cost := bitset(-cuts[k]) + far; cost < best {
+			best, split, a = cost, k, -cuts[k]
+		}
+	}
+	a = min(a, span)
+
 	words := c.words[:0]
 	for range nw {
 		words = append(words, 0)
@@ -444,12 +463,13 @@ func (c *Counter) countPositions(pos, below, small []int64, maxAbs *int64) {
 		q := p - pos[0]
 		words[q>>6] |= 1 << (q & 63)
 	}
+	// hist[d] = pairs at distance d ≤ a, then the pairs at distance ≤ d
 	hist := c.hist[:0]
 	hist = append(hist, 0)
-	for d := int64(1); d <= span; d++ {
+	for d := int64(1); d <= a; d++ {
 		q, r := int(d>>6), uint(d&63)
 		var n int
-		var prev uint64 // the word before words[i-q]
+		var prev uint64 // the word before words[i]
 		for i, w := range words[q:] {
 			src := words[i]
 			n += bits.OnesCount64(w & (src<<r | prev>>(64-r)))
@@ -458,21 +478,42 @@ func (c *Counter) countPositions(pos, below, small []int64, maxAbs *int64) {
 		hist = append(hist, int64(n))
 	}
 	c.hist = hist
-	for a := int64(1); a <= min(c.exact, span); a++ {
-		small[a] += hist[a]
+	for d := int64(1); d <= min(c.exact, a); d++ {
+		small[d] += hist[d]
 	}
-	// hist[d] becomes the pairs at distance > d: those below the cut −d.
-	var run int64
-	for d := span; d >= 1; d-- {
-		run, hist[d] = run+hist[d], run
+	for d := int64(1); d <= a; d++ {
+		hist[d] += hist[d-1]
 	}
-	for k := first; k < len(cuts); k++ {
-		below[k] += hist[-cuts[k]]
+	pairs := int64(m) * int64(m-1) / 2 // at distance ≥ 1
+	for k := max(split, first); k < len(cuts); k++ {
+		below[k] += pairs - hist[-cuts[k]]
+	}
+	if first >= split {
+		return
+	}
+	tab := c.tab[:0]
+	for range span + 1 {
+		tab = append(tab, 0)
+	}
+	c.tab = tab
+	// tab[y] = the positions at most y after the first
+	for i, p := range pos {
+		tab[p-pos[0]] = int32(i + 1)
+	}
+	for y := int64(1); y <= span; y++ {
+		tab[y] = max(tab[y], tab[y-1])
+	}
+	for k := first; k < split; k++ {
+		a := -cuts[k]
+		// a pair (p, q) is at distance > a when p ≤ q − a − 1, for q > a
+		i := sort.Search(m, func(i int) bool { return pos[i]-pos[0] > a })
+		var sum int64
+		for _, q := range pos[i:] {
+			sum += int64(tab[q-pos[0]-a-1])
+		}
+		below[k] += sum
 	}
 }
-
-// bitsetStep is the cost of one word step of the bitset histogram in walk steps.
-const bitsetStep = 1.0
 
 // countPointers counts the ordered pairs (i, j) of the non-decreasing values v by
 // their offset v[j] − v[i] < 0 (such pairs have j < i: they are causal pairs, and in
