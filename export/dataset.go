@@ -29,6 +29,8 @@ type datasetWriter struct {
 	open    map[string]*openShard
 	seq     map[string]int
 	onShard func(Shard) // called after each shard is written, serialized
+	onReuse func()      // called after each shard kept from an interrupted run, serialized
+	journal *journal    // nil: every shard is written
 	mu      sync.Mutex
 	shards  []numbered
 }
@@ -101,12 +103,29 @@ func (w *datasetWriter) cut(split string) error {
 		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
 			return fmt.Errorf("create %s folder: %w", split, err)
 		}
-		sh, err := writeShard(p, o.rows, opt, true)
-		if err != nil {
-			return err
+		var digest string
+		reused := false
+		var sh Shard
+		if w.journal != nil {
+			digest = shardDigest(o.rows, opt)
+			sh, reused = w.journal.reuse(rel, digest)
 		}
-		sh.Path, sh.Split = rel, split
+		if !reused {
+			var err error
+			if sh, err = writeShard(p, o.rows, opt, true); err != nil {
+				return err
+			}
+			sh.Path, sh.Split = rel, split
+			if w.journal != nil {
+				if err := w.journal.record(digest, sh); err != nil {
+					return err
+				}
+			}
+		}
 		w.mu.Lock()
+		if reused && w.onReuse != nil {
+			w.onReuse()
+		}
 		w.shards = append(w.shards, numbered{sh, seq})
 		if w.onShard != nil {
 			w.onShard(sh)

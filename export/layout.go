@@ -52,23 +52,26 @@ var ErrFolderInUse = errors.New("output folder in use")
 // of the same config, and writes the marker. The previous manifest of the same
 // config, if any, is removed first so that the folder never looks complete while
 // the rerun rewrites it.
-func prepareOut(dir string, mk marker, overwrite bool) error {
+//
+// resume reports that the folder held an earlier run of the same config, whose
+// completed shards (see JournalName) may be kept.
+func prepareOut(dir string, mk marker, overwrite bool) (resume bool, err error) {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("create output folder: %w", err)
+		return false, fmt.Errorf("create output folder: %w", err)
 	}
 	entries, err := os.ReadDir(dir)
 	if err != nil {
-		return fmt.Errorf("read output folder: %w", err)
+		return false, fmt.Errorf("read output folder: %w", err)
 	}
 	if len(entries) > 0 {
-		if err := claimFolder(dir, mk, overwrite); err != nil {
-			return err
+		if resume, err = claimFolder(dir, mk, overwrite); err != nil {
+			return false, err
 		}
 	}
 	if err := writeMarker(dir, mk); err != nil {
-		return err
+		return false, err
 	}
-	return removeTemps(dir)
+	return resume, removeTemps(dir)
 }
 
 // writeMarker marks dir as owned by the run of mk. It comes before anything of a
@@ -85,52 +88,52 @@ func writeMarker(dir string, mk marker) error {
 	return nil
 }
 
-func claimFolder(dir string, mk marker, overwrite bool) error {
+func claimFolder(dir string, mk marker, overwrite bool) (resume bool, err error) {
 	manifestPath := filepath.Join(dir, ManifestName)
 	if _, err := os.Stat(manifestPath); err == nil {
 		m, err := ReadManifest(dir)
 		if err != nil {
-			return fmt.Errorf("%w: %s holds a %s that cannot be read (%v); not touching it", ErrFolderInUse, dir, ManifestName, err)
+			return false, fmt.Errorf("%w: %s holds a %s that cannot be read (%v); not touching it", ErrFolderInUse, dir, ManifestName, err)
 		}
 		same := m.ConfigHash == mk.ConfigHash && samePart(m.Part, mk.Part)
 		if !same && !overwrite {
-			return fmt.Errorf("%w: %s holds a dataset made with another config (hash %s, part %s; this run: %s, part %s); use --overwrite to replace it",
+			return false, fmt.Errorf("%w: %s holds a dataset made with another config (hash %s, part %s; this run: %s, part %s); use --overwrite to replace it",
 				ErrFolderInUse, dir, short(m.ConfigHash), partText(m.Part), short(mk.ConfigHash), partText(mk.Part))
 		}
 		if err := writeMarker(dir, mk); err != nil {
-			return err
+			return false, err
 		}
 		if same {
-			return os.Remove(manifestPath)
+			return true, os.Remove(manifestPath)
 		}
-		return removeDataset(dir, m)
+		return false, removeDataset(dir, m)
 	}
 	data, err := os.ReadFile(filepath.Join(dir, MarkerName))
 	if err != nil {
 		if onlyMarkerTemp(dir) {
 			// A run killed while writing its marker, the first file it writes into
 			// an empty folder: the folder is ours and nothing else is in it.
-			return nil
+			return false, nil
 		}
-		return fmt.Errorf("%w: %s is not empty and holds no relshard dataset; choose an empty or new folder", ErrFolderInUse, dir)
+		return false, fmt.Errorf("%w: %s is not empty and holds no relshard dataset; choose an empty or new folder", ErrFolderInUse, dir)
 	}
 	var old marker
 	if err := json.Unmarshal(data, &old); err != nil || old.Format != ManifestKind {
-		return fmt.Errorf("%w: %s holds an unreadable %s; not touching it", ErrFolderInUse, dir, MarkerName)
+		return false, fmt.Errorf("%w: %s holds an unreadable %s; not touching it", ErrFolderInUse, dir, MarkerName)
 	}
 	if old.ConfigHash == mk.ConfigHash && samePart(old.Part, mk.Part) {
-		return nil // resume
+		return true, nil
 	}
 	if !overwrite {
-		return fmt.Errorf("%w: %s holds an unfinished run with another config (hash %s, part %s; this run: %s, part %s); use --overwrite to replace it",
+		return false, fmt.Errorf("%w: %s holds an unfinished run with another config (hash %s, part %s; this run: %s, part %s); use --overwrite to replace it",
 			ErrFolderInUse, dir, short(old.ConfigHash), partText(old.Part), short(mk.ConfigHash), partText(mk.Part))
 	}
 	// An unfinished run has no manifest listing its files: remove exactly the
 	// files that its naming scheme could have made.
 	if err := writeMarker(dir, mk); err != nil {
-		return err
+		return false, err
 	}
-	return removeShardFiles(dir, nil)
+	return false, removeShardFiles(dir, nil)
 }
 
 // onlyMarkerTemp reports whether dir holds nothing but the temporary file of the run
@@ -204,7 +207,7 @@ func removeTemps(dir string) error {
 				continue
 			}
 			base := strings.TrimSuffix(n, TempSuffix)
-			if shardPattern.MatchString(base) || (d == "" && (base == ManifestName || base == MarkerName)) {
+			if shardPattern.MatchString(base) || (d == "" && (base == ManifestName || base == MarkerName || base == JournalName)) {
 				if err := os.Remove(filepath.Join(dir, d, n)); err != nil {
 					return fmt.Errorf("remove leftover temporary file: %w", err)
 				}

@@ -65,7 +65,7 @@ func Merge(ctx context.Context, partDirs []string, opt MergeOptions) (*Manifest,
 	first := parts[order[0]]
 	cfg := first.Config
 	mk := marker{Format: ManifestKind, ConfigHash: first.ConfigHash}
-	if err := prepareOut(opt.Out, mk, opt.Overwrite); err != nil {
+	if _, err := prepareOut(opt.Out, mk, opt.Overwrite); err != nil {
 		return nil, err
 	}
 	cov, err := newCoverage(cfg)

@@ -27,6 +27,7 @@ type outputSpec struct {
 	vocabulary  json.RawMessage
 	buckets     json.RawMessage
 	onShard     func(Shard)
+	onReuse     func()
 }
 
 // fileResult is what the pipeline hands the output stage for one input file, in
@@ -46,9 +47,15 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 		p := sp.part
 		mk.Part = &p
 	}
-	if err := prepareOut(sp.dir, mk, sp.overwrite); err != nil {
+	resume, err := prepareOut(sp.dir, mk, sp.overwrite)
+	if err != nil {
 		return nil, err
 	}
+	jr, err := openJournal(sp.dir, resume)
+	if err != nil {
+		return nil, err
+	}
+	defer jr.close()
 	opt := ShardOptions{
 		Compression:   sp.cfg.Shards.Compression,
 		RowGroupBytes: sp.cfg.Shards.rowGroupBytes(),
@@ -64,9 +71,10 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 		},
 	}
 	dw := newDatasetWriter(ctx, sp.dir, sp.part, sp.cfg.Shards, opt, sp.workers, sp.onShard)
+	dw.journal, dw.onReuse = jr, sp.onReuse
 	var files []FileEntry
 	splitPieces := map[string]int64{}
-	err := feed(func(fr fileResult) error {
+	err = feed(func(fr fileResult) error {
 		files = append(files, fr.entry)
 		seen := map[string]bool{}
 		for _, r := range fr.rows {
@@ -146,6 +154,9 @@ func commitManifest(dir string, m *Manifest) error {
 	}
 	if err := writeFileAtomic(filepath.Join(dir, ManifestName), data); err != nil {
 		return fmt.Errorf("write manifest: %w", err)
+	}
+	if err := removeJournal(dir); err != nil {
+		return err
 	}
 	if err := os.Remove(filepath.Join(dir, MarkerName)); err != nil && !errors.Is(err, fs.ErrNotExist) {
 		return fmt.Errorf("remove run marker: %w", err)

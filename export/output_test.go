@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync/atomic"
 	"testing"
 )
 
@@ -100,9 +101,29 @@ func TestResumeAfterCrash(t *testing.T) {
 		if _, err := Verify(context.Background(), dir); err == nil {
 			t.Errorf("stop at %d: verify accepted an interrupted run", stopAt)
 		}
-		writeSynth(t, dir, 8, files)
+		var reused atomic.Int64
+		sp := synthSpec(dir, 8)
+		sp.onReuse = func() { reused.Add(1) }
+		if stopAt == 31 {
+			// One completed shard damaged after the crash: it must be written again.
+			data, _ := os.ReadFile(filepath.Join(dir, "train", "train-000000.parquet"))
+			if len(data) > 0 {
+				data[10] ^= 1
+				os.WriteFile(filepath.Join(dir, "train", "train-000000.parquet"), data, 0o644)
+			}
+		}
+		if _, err := writeOutput(context.Background(), sp, feedOf(files), noCoverage); err != nil {
+			t.Fatal(err)
+		}
 		if d := diffTrees(want, treeHashes(t, dir)); len(d) > 0 {
 			t.Errorf("stop at %d: resumed output differs from an uninterrupted run: %v", stopAt, d)
+		}
+		if stopAt == 31 && reused.Load() == 0 {
+			t.Errorf("stop at %d: the rerun kept none of the shards the first run completed", stopAt)
+		}
+		t.Logf("stop at %d: %d shards kept", stopAt, reused.Load())
+		if _, err := os.Stat(filepath.Join(dir, JournalName)); err == nil {
+			t.Errorf("stop at %d: the journal outlived the run", stopAt)
 		}
 	}
 }

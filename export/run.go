@@ -43,7 +43,8 @@ type Options struct {
 type Progress struct {
 	Files   int64 // input files accounted for
 	Windows int64 // rows handed to the shard writers
-	Shards  int64 // shards written
+	Shards  int64 // shards written (or kept)
+	Reused  int64 // of those, shards kept from an interrupted run of the same config
 }
 
 // Run exports a corpus: it scans the sources (ingest.Scan), encodes each kept
@@ -53,7 +54,11 @@ type Progress struct {
 //
 // Run is crash-safe and idempotent: shards and manifest appear only complete, under
 // their final names; running again with the same config finishes an interrupted run
-// and gives byte-identical files, whatever the worker count.
+// and gives byte-identical files, whatever the worker count. The rerun reads and
+// encodes the corpus again (shard contents depend on everything before them) but
+// keeps each shard the interrupted run completed, when its rows and options are
+// unchanged and its file is intact (see JournalName), instead of compressing and
+// writing it again.
 func Run(ctx context.Context, sources []ingest.Source, cfg Config, opt Options) (*Manifest, error) {
 	cfg = cfg.Resolved()
 	if err := cfg.Validate(); err != nil {
@@ -109,6 +114,7 @@ func Run(ctx context.Context, sources []ingest.Source, cfg Config, opt Options) 
 		encoding: cfg.Tokens.Encoding, timeUnit: enc.TimeUnit(), vocabSize: enc.Vocab().Size(), maxLen: cfg.Tokens.MaxLen,
 		vocabulary: vocab, buckets: buckets,
 		onShard: func(Shard) { report(func(p *Progress) { p.Shards++ }) },
+		onReuse: func() { report(func(p *Progress) { p.Reused++ }) },
 	}
 	iopt := cfg.Input.Options()
 	iopt.Workers = workers

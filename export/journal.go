@@ -1,0 +1,173 @@
+package export
+
+import (
+	"bufio"
+	"bytes"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io/fs"
+	"maps"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"sync"
+)
+
+// JournalName is the file in which a run lists each shard as it completes, so
+// that a rerun after a crash keeps the shards already written instead of encoding
+// them again. It exists only while a run is unfinished.
+const JournalName = ".relshard-journal.jsonl"
+
+// journalEntry is one line of the journal: a shard and the digest of what went
+// into it (its rows and the writer options).
+type journalEntry struct {
+	Digest string `json:"digest"`
+	Shard  Shard  `json:"shard"`
+}
+
+// journal records completed shards and answers whether a shard of an earlier,
+// interrupted run of the same config can be kept.
+type journal struct {
+	mu   sync.Mutex
+	dir  string
+	f    *os.File
+	prev map[string]journalEntry // by path, from the interrupted run
+}
+
+// openJournal starts the journal of a run. With resume, the entries of the
+// interrupted run are loaded (up to the first torn line) and kept; otherwise any
+// old journal is discarded.
+func openJournal(dir string, resume bool) (*journal, error) {
+	j := &journal{dir: dir, prev: map[string]journalEntry{}}
+	path := filepath.Join(dir, JournalName)
+	var keep []byte
+	if resume {
+		data, err := os.ReadFile(path)
+		if err != nil && !errors.Is(err, fs.ErrNotExist) {
+			return nil, fmt.Errorf("read journal: %w", err)
+		}
+		for len(data) > 0 {
+			line, rest, ok := bytes.Cut(data, []byte("\n"))
+			if !ok {
+				break // torn last line of a killed run
+			}
+			var e journalEntry
+			if json.Unmarshal(line, &e) != nil || e.Digest == "" {
+				break
+			}
+			j.prev[e.Shard.Path] = e
+			keep = append(append(keep, line...), '\n')
+			data = rest
+		}
+	}
+	// Start from the sound entries only, so nothing is appended after a torn line.
+	if err := writeFileAtomic(path, keep); err != nil {
+		return nil, fmt.Errorf("write journal: %w", err)
+	}
+	f, err := os.OpenFile(path, os.O_WRONLY|os.O_APPEND, 0o644)
+	if err != nil {
+		return nil, fmt.Errorf("open journal: %w", err)
+	}
+	j.f = f
+	return j, nil
+}
+
+// reuse reports whether the shard at rel, with the given digest, was completed by
+// the interrupted run and is still intact on disk; it then returns its entry.
+func (j *journal) reuse(rel, digest string) (Shard, bool) {
+	j.mu.Lock()
+	e, ok := j.prev[rel]
+	j.mu.Unlock()
+	if !ok || e.Digest != digest {
+		return Shard{}, false
+	}
+	p, err := localPath(j.dir, rel)
+	if err != nil {
+		return Shard{}, false
+	}
+	size, sum, err := fileSHA256(p)
+	if err != nil || size != e.Shard.Bytes || sum != e.Shard.SHA256 {
+		return Shard{}, false
+	}
+	return e.Shard, true
+}
+
+// record appends a completed shard, durably: the shard file was synced and
+// renamed before, so an entry never names a file that is not complete.
+func (j *journal) record(digest string, sh Shard) error {
+	line, err := json.Marshal(journalEntry{Digest: digest, Shard: sh})
+	if err != nil {
+		return err
+	}
+	j.mu.Lock()
+	defer j.mu.Unlock()
+	if _, err := j.f.Write(append(line, '\n')); err != nil {
+		return fmt.Errorf("write journal: %w", err)
+	}
+	return j.f.Sync()
+}
+
+func (j *journal) close() error {
+	if j == nil || j.f == nil {
+		return nil
+	}
+	return j.f.Close()
+}
+
+// removeJournal deletes the journal of a finished run.
+func removeJournal(dir string) error {
+	if err := os.Remove(filepath.Join(dir, JournalName)); err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("remove journal: %w", err)
+	}
+	return nil
+}
+
+// shardDigest is the SHA-256 of everything that decides a shard's bytes: the
+// writer options and every field of every row, each length-prefixed.
+func shardDigest(rows []Row, opt ShardOptions) string {
+	h := sha256.New()
+	bw := bufio.NewWriterSize(h, 64<<10)
+	var b []byte
+	str := func(s string) {
+		b = binary.LittleEndian.AppendUint64(b[:0], uint64(len(s)))
+		bw.Write(b)
+		bw.WriteString(s)
+	}
+	str(opt.Compression)
+	str(opt.CreatedBy)
+	b = binary.LittleEndian.AppendUint64(b[:0], uint64(opt.RowGroupBytes))
+	bw.Write(b)
+	for _, k := range slices.Sorted(maps.Keys(opt.Metadata)) {
+		str(k)
+		str(opt.Metadata[k])
+	}
+	for i := range rows {
+		r := &rows[i]
+		for _, s := range []string{r.Piece, r.Dataset, r.Source, r.ContentHash, r.Split} {
+			str(s)
+		}
+		b = binary.LittleEndian.AppendUint32(b[:0], uint32(r.Window))
+		b = binary.LittleEndian.AppendUint32(b, uint32(r.Transpose))
+		b = binary.LittleEndian.AppendUint32(b, math.Float32bits(r.Stretch))
+		for _, l := range [][]int32{r.Tokens, r.Time} {
+			b = binary.LittleEndian.AppendUint64(b, uint64(len(l)))
+			for _, v := range l {
+				b = binary.LittleEndian.AppendUint32(b, uint32(v))
+			}
+		}
+		for _, l := range [][]int16{r.Pitch, r.Inst} {
+			b = binary.LittleEndian.AppendUint64(b, uint64(len(l)))
+			for _, v := range l {
+				b = binary.LittleEndian.AppendUint16(b, uint16(v))
+			}
+		}
+		bw.Write(b)
+	}
+	bw.Flush()
+	return hex.EncodeToString(h.Sum(nil))
+}
