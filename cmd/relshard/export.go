@@ -310,7 +310,11 @@ func runExport(ctx context.Context, cmd *cobra.Command, o *exportOptions, s *str
 		bar = progressbar.NewOptions64(-1, progressbar.OptionSetWriter(s.Err), progressbar.OptionSetDescription("exporting"),
 			progressbar.OptionShowCount(), progressbar.OptionSetItsString("files"),
 			progressbar.OptionThrottle(100*time.Millisecond), progressbar.OptionClearOnFinish())
-		opt.Progress = func(p export.Progress) {
+	}
+	var last export.Progress
+	opt.Progress = func(p export.Progress) {
+		last = p
+		if bar != nil {
 			bar.Describe(fmt.Sprintf("exporting: %d windows, %d shards; files", p.Windows, p.Shards))
 			_ = bar.Set64(p.Files)
 		}
@@ -330,6 +334,9 @@ func runExport(ctx context.Context, cmd *cobra.Command, o *exportOptions, s *str
 	}
 	if err := printSummary(s, m, o.out); err != nil {
 		return err
+	}
+	if last.Reused > 0 {
+		fmt.Fprintf(s.Out, "resumed: kept %d of %d shards from the interrupted run\n", last.Reused, last.Shards)
 	}
 	// As in scan: archive entries that are not MIDI files are listed, not failures.
 	skipped := 0
