@@ -22,7 +22,9 @@
 // so the same inputs and Config give byte-identical files for any worker count,
 // and nothing in the manifest is a timestamp. Files appear only complete (written
 // under a temporary name, synced and renamed), so a killed run is finished by
-// running it again. Verify reads a dataset back and lists its problems.
+// running it again; the rerun keeps the shards the killed run completed (listed
+// in .relshard-journal.jsonl while a run is unfinished). Verify reads a dataset
+// back and lists its problems.
 //
 // Memory is bounded by the shard size target: one open shard per split plus one
 // shard per writing worker, and a few input files per worker.

@@ -20,8 +20,8 @@ import (
 //	test/test-000000.parquet
 //	train/train-p2-000000.parquet       shards written by part 2 of a split run (kept by merge)
 //
-// Files being written end in TempSuffix; the run marker (MarkerName) exists while a
-// run is in progress.
+// Files being written end in TempSuffix; the run marker (MarkerName) and the
+// journal of completed shards (JournalName) exist while a run is in progress.
 
 // shardName returns the slash-separated relative path of shard seq of a split.
 func shardName(split string, part Part, seq int) string {
