@@ -69,9 +69,6 @@ type Encoder struct {
 	clock    clock
 	// dropDrums is cfg.Drums == DrumsDrop, compared once instead of per note.
 	dropDrums bool
-	// stepDiv and stepInv are the divisor of stepOf and its reciprocal.
-	stepDiv int64
-	stepInv float64
 
 	pnotes []pnote
 	offs   []uint64

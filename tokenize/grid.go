@@ -54,37 +54,14 @@ type barMark struct {
 // maxTick keeps tick arithmetic far from int64 overflow.
 const maxTick = 1 << 40
 
-// stepOf maps a tick to the nearest grid step: (tick*2g + tpq) / (2 tpq) for
-// metric divisions. A 64-bit division costs as much as the rest of a note, so the
-// quotient is estimated through a reciprocal set up by setStepDiv and then
-// corrected to the exact integer quotient.
+// stepOf maps a tick to the nearest grid step.
 func (e *Encoder) stepOf(tick int64) int64 {
 	g := int64(e.cfg.GridPerQuarter)
 	if e.clock.smpte > 0 {
 		return int64(math.Round(float64(tick) / e.clock.smpte * 2 * float64(g)))
 	}
-	d := e.stepDiv
-	n := tick*2*g + d/2
-	if tick < 0 || tick > maxTick || n >= 1<<53 {
-		return n / d
-	}
-	q := int64(float64(n) * e.stepInv)
-	r := n - q*d
-	for r < 0 {
-		q--
-		r += d
-	}
-	for r >= d {
-		q++
-		r -= d
-	}
-	return q
-}
-
-// setStepDiv sets up stepOf for the piece e.clock was reset to.
-func (e *Encoder) setStepDiv() {
-	e.stepDiv = 2 * int64(e.clock.tpq)
-	e.stepInv = 1 / float64(e.stepDiv)
+	tpq := int64(e.clock.tpq)
+	return (tick*g*2 + tpq) / (2 * tpq)
 }
 
 // msOfStep is the time of a grid step through the piece's tempo map.
@@ -108,7 +85,6 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		return dst, st, fmt.Errorf("encode: %w: ticks per quarter %d", ErrBadPiece, p.TicksPerQuarter)
 	}
 	e.clock.reset(p)
-	e.setStepDiv()
 	notes := e.gnotes[:0]
 	maxDur := int64(e.cfg.MaxDurationSteps)
 	sorted := true
