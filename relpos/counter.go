@@ -565,11 +565,13 @@ func splitCuts(cuts []int64, idx []int32, groups int, span int64) (first, split 
 	if split < first {
 		return first, len(cuts)
 	}
-	// Estimated steps, values spread evenly over the span: the walk up to magnitude A
+	// Estimated cost, values spread evenly over the span: the walk up to magnitude A
 	// visits about G²/2 · A/span group pairs; a pointer at cut x about G·(1 − |x|/span)
-	// groups, twice (the group loop and the pointer).
+	// groups, twice (the group loop and the pointer). A walk step (a table lookup and a
+	// scattered add) costs about two pointer steps: measured on BenchmarkCountDefault,
+	// weights 1 to 4 are within a few per cent, 0.5 and below markedly slower.
 	g := float64(groups)
-	walk := func(a int64) float64 { return g * g / 2 * min(1, float64(a)/float64(span)) }
+	walk := func(a int64) float64 { return g * g * min(1, float64(a)/float64(span)) }
 	var ptr float64
 	for k := first; k < split; k++ {
 		ptr += 2 * g * (1 - float64(-cuts[k])/float64(span))
