@@ -53,7 +53,8 @@ type Counter struct {
 	pitchBucket    [pitchSpan]int32 // bucket of Δp+127 in jointP
 
 	// scratch
-	val, pos   []int64
+	val        []int64
+	class      [numClasses]classScratch
 	pit        []int16
 	gval, gpre []int64
 	gcnt, gbin []int64
@@ -365,8 +366,29 @@ func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
 	t.NoPitch += P - pp
 
 	if *c.cfg.Instruments {
-		for cl := range numClasses {
-			c.countClass(&t.class[cl], tokens, Class(cl))
+		// one pass sorts the tokens into the classes' streams (the classes of inClass)
+		for cl := range c.class {
+			cs := &c.class[cl]
+			cs.pos, cs.val, cs.pit = cs.pos[:0], cs.val[:0], cs.pit[:0]
+		}
+		for i, tk := range tokens {
+			var cs *classScratch
+			switch {
+			case tk.Inst == tokenize.InstDrums:
+				cs = &c.class[Drums]
+			case tk.Inst >= 0 && tk.Inst < tokenize.InstDrums:
+				cs = &c.class[Pitched]
+			default:
+				continue
+			}
+			cs.pos = append(cs.pos, int64(i))
+			cs.val = append(cs.val, int64(tk.Time))
+			if tk.Pitch >= 0 {
+				cs.pit = append(cs.pit, tk.Pitch)
+			}
+		}
+		for cl := range c.class {
+			c.countClass(&t.class[cl], &c.class[cl])
 		}
 	}
 	if c.jointT != nil {
@@ -383,30 +405,26 @@ func inClass(tk tokenize.Token, cl Class) bool {
 	return tk.Inst >= 0 && tk.Inst < tokenize.InstDrums
 }
 
-// countClass counts the pairs of one window whose tokens both belong to the class: the
+// classScratch holds one class's sub-stream of a window: the window positions, times
+// and pitches of its tokens.
+type classScratch struct {
+	pos, val []int64
+	pit      []int16
+}
+
+// countClass counts the pairs of one window whose tokens both belong to a class: the
 // class's tokens form a sub-stream whose distances are differences of window positions.
-func (c *Counter) countClass(s *stream, tokens []tokenize.Token, cl Class) {
-	c.pos, c.val, c.pit = c.pos[:0], c.val[:0], c.pit[:0]
-	for i, tk := range tokens {
-		if !inClass(tk, cl) {
-			continue
-		}
-		c.pos = append(c.pos, int64(i))
-		c.val = append(c.val, int64(tk.Time))
-		if tk.Pitch >= 0 {
-			c.pit = append(c.pit, tk.Pitch)
-		}
-	}
-	m := int64(len(c.pos))
+func (c *Counter) countClass(s *stream, cs *classScratch) {
+	m := int64(len(cs.pos))
 	if m == 0 {
 		return
 	}
 	P := pairCount(m, c.cfg.Pairs)
 	s.pairs[Distance] += P
 	s.pairs[Time] += P
-	c.countPositions(c.pos, s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
-	c.countPointers(c.val, c.cuts[Time], c.cutIdx[Time], s.below[Time], s.small[Time], &s.maxAbs[Time])
-	s.pairs[Pitch] += countPitch(c.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
+	c.countPositions(cs.pos, s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
+	c.countPointers(cs.val, c.cuts[Time], c.cutIdx[Time], s.below[Time], s.small[Time], &s.maxAbs[Time])
+	s.pairs[Pitch] += countPitch(cs.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
 }
 
 // countPositions counts, as countPointers does, the pairs of the distinct increasing
