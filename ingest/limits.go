@@ -91,7 +91,18 @@ func readCappedInto(r io.Reader, buf []byte, max, sizeHint int64, tooBig func() 
 	lr := io.LimitedReader{R: r, N: max + 1}
 	for {
 		if len(b) == cap(b) {
-			b = append(b, 0)[:len(b)]
+			if int64(len(b)) > max {
+				break
+			}
+			// Double, as bytes.Buffer does (append grows large slices by a quarter,
+			// which allocates more in all), but never past the cap and one byte.
+			c := 2 * cap(b)
+			if int64(c) > max+1 {
+				c = int(max + 1)
+			}
+			nb := make([]byte, len(b), c)
+			copy(nb, b)
+			b = nb
 		}
 		n, err := lr.Read(b[len(b):cap(b)])
 		b = b[:len(b)+n]
