@@ -704,9 +704,9 @@ func countPitch(p []int16, mode Mode, hist *[pitchSpan]int64, maxAbs *int64) int
 			qi := int(q)
 			h[qi]++
 			lo, hi = min(lo, qi), max(hi, qi)
-			row := hist[127-qi:]
-			for b := lo; b <= hi; b++ {
-				row[b] += h[b]
+			row, src := hist[127-qi+lo:127-qi+hi+1], h[lo:hi+1]
+			for b, n := range src {
+				row[b] += n
 			}
 		}
 	} else {
