@@ -30,17 +30,19 @@ func (c Class) String() string {
 const pitchSpan = 255
 
 // Counter counts the offsets of the pairs of training windows into a Tally, exactly in
-// about O(L·C) per window of L tokens and C bucket edges: token distance in closed form,
-// time with one moving pointer per edge over the non-decreasing times, pitch with a
-// running pitch histogram. A Counter keeps scratch buffers: use one per goroutine.
+// about O(L·C) per window of L tokens and C bucket edges: token distance in closed form
+// (within an instrument class from a bitset histogram and rank lookups), time with one
+// walk over the close pairs and one moving pointer per farther edge over the
+// non-decreasing times, pitch with a running pitch histogram. A Counter keeps scratch
+// buffers: use one per goroutine.
 type Counter struct {
 	cfg     Config
 	schemes [numKinds][]*Scheme
 	// cuts are the offsets x ≤ 0, ascending, at which kinds counted by pointers (time;
 	// distance within an instrument class) record the number of pairs with Δ < x.
 	cuts [numKinds][]int64
-	// cutIdx[k][d] is the last index i with cuts[k][i] ≤ −d, for d up to a table size.
-	cutIdx [numKinds][]int32
+	// timeIdx[d] is the last index i with cuts[Time][i] ≤ −d, for d up to a table size.
+	timeIdx []int32
 	// mags are the magnitudes a at which the number of pairs with |Δ| ≤ a is known on
 	// pointer-counted kinds: every a ≤ exact, then steps of max(1, a/12).
 	mags []int64
@@ -132,8 +134,8 @@ func NewCounter(cfg Config) (*Counter, error) {
 			}
 		}
 		c.cuts[k] = sortedUnique(keep)
-		c.cutIdx[k] = cutTable(c.cuts[k], exactMags)
 	}
+	c.timeIdx = cutTable(c.cuts[Time], exactMags)
 	c.bounds = sortedUnique(append(append([]int64(nil), c.mags...), c.budgetMags(Time)...))
 	if cfg.Joint {
 		c.jointT, c.jointP = c.schemes[Time][0], c.schemes[Pitch][0]
@@ -352,7 +354,7 @@ func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
 		c.val = append(c.val, int64(tk.Time))
 	}
 	all.pairs[Time] += P
-	c.countPointers(c.val, c.cuts[Time], c.cutIdx[Time], all.below[Time], all.small[Time], &all.maxAbs[Time])
+	c.countPointers(c.val, c.cuts[Time], c.timeIdx, all.below[Time], all.small[Time], &all.maxAbs[Time])
 
 	// Pitch: running histogram.
 	c.pit = c.pit[:0]
@@ -423,7 +425,7 @@ func (c *Counter) countClass(s *stream, cs *classScratch) {
 	s.pairs[Distance] += P
 	s.pairs[Time] += P
 	c.countPositions(cs.pos, s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
-	c.countPointers(cs.val, c.cuts[Time], c.cutIdx[Time], s.below[Time], s.small[Time], &s.maxAbs[Time])
+	c.countPointers(cs.val, c.cuts[Time], c.timeIdx, s.below[Time], s.small[Time], &s.maxAbs[Time])
 	s.pairs[Pitch] += countPitch(cs.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
 }
 
