@@ -17,9 +17,10 @@
 //	s.Bucket(-20)               // 0, and s.Saturation(-20) == SatLow
 //
 // A Counter counts the pairs of each window into a Tally, exactly and in about O(L·C)
-// per window of L tokens and C bucket edges: token distance in closed form, time with
-// one moving pointer per edge over the non-decreasing times, pitch with a running
-// pitch histogram. CountNaive is the O(L²) reference it is tested against; Sample
+// per window of L tokens and C bucket edges: token distance in closed form (within an
+// instrument class, from a bitset of the class's positions), time with one walk over
+// the close pairs and one moving pointer per farther edge over the non-decreasing
+// times, pitch with a running pitch histogram. CountNaive is the O(L²) reference it is tested against; Sample
 // draws a random share of the pairs instead. Report turns a tally into coverage:
 // pairs inside each scheme's range and saturated at each edge, per-bucket counts and
 // shares, unused buckets, entropy, |Δ| quantiles and clip recommendations, broken down
