@@ -33,8 +33,8 @@ type Window struct {
 
 // put appends one token to d. It appends a zero token and then stores the fields
 // into it: an appended struct literal is built on the stack and copied with one wide
-// load right after its narrow stores, which stalls store forwarding and cost more
-// than the rest of the encoder's per-token work.
+// load right after its narrow stores, which stalls store forwarding (a loop of such
+// appends measured about three times slower than one storing the fields).
 func put(d []Token, id, time, ms int32, pitch, inst int16) []Token {
 	d = append(d, Token{})
 	t := &d[len(d)-1]
