@@ -61,6 +61,7 @@ type Counter struct {
 	gval, gpre []int64
 	gcnt, gbin []int64
 	words      []uint64
+	phist      [pitchSpan]int64 // one window's pitch offsets
 	tab        []int32
 	hist       []int64
 }
@@ -363,8 +364,12 @@ func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
 			c.pit = append(c.pit, tk.Pitch)
 		}
 	}
-	pp := countPitch(c.pit, mode, &all.phist, &all.maxAbs[Pitch])
-	all.pairs[Pitch] += pp
+	// The window's pitch offsets go to a histogram of their own first: a class holding
+	// every pitched token (the pitched class when drums are dropped) has the same ones.
+	c.phist = [pitchSpan]int64{}
+	var pmax int64
+	pp := countPitch(c.pit, mode, &c.phist, &pmax)
+	addPitch(all, &c.phist, pmax, pp)
 	t.NoPitch += P - pp
 
 	if *c.cfg.Instruments {
@@ -390,7 +395,14 @@ func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
 			}
 		}
 		for cl := range c.class {
-			c.countClass(&t.class[cl], &c.class[cl])
+			s, cs := &t.class[cl], &c.class[cl]
+			c.countClass(s, cs)
+			if len(cs.pit) == len(c.pit) && len(cs.pit) > 0 {
+				// every pitched token is in this class: the same pitch sequence
+				addPitch(s, &c.phist, pmax, pp)
+			} else {
+				s.pairs[Pitch] += countPitch(cs.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
+			}
 		}
 	}
 	if c.jointT != nil {
@@ -414,8 +426,9 @@ type classScratch struct {
 	pit      []int16
 }
 
-// countClass counts the pairs of one window whose tokens both belong to a class: the
-// class's tokens form a sub-stream whose distances are differences of window positions.
+// countClass counts the token distances and time offsets of the pairs of one window
+// whose tokens both belong to a class: the class's tokens form a sub-stream whose
+// distances are differences of window positions. Count adds their pitch offsets.
 func (c *Counter) countClass(s *stream, cs *classScratch) {
 	m := int64(len(cs.pos))
 	if m == 0 {
@@ -426,7 +439,16 @@ func (c *Counter) countClass(s *stream, cs *classScratch) {
 	s.pairs[Time] += P
 	c.countPositions(cs.pos, s.below[Distance], s.small[Distance], &s.maxAbs[Distance])
 	c.countPointers(cs.val, c.cuts[Time], c.timeIdx, s.below[Time], s.small[Time], &s.maxAbs[Time])
-	s.pairs[Pitch] += countPitch(cs.pit, c.cfg.Pairs, &s.phist, &s.maxAbs[Pitch])
+}
+
+// addPitch adds one window's pitch offsets, counted into hist with the largest |Δp|
+// maxAbs over pairs pairs, to a stream.
+func addPitch(s *stream, hist *[pitchSpan]int64, maxAbs, pairs int64) {
+	for i, n := range hist {
+		s.phist[i] += n
+	}
+	s.maxAbs[Pitch] = max(s.maxAbs[Pitch], maxAbs)
+	s.pairs[Pitch] += pairs
 }
 
 // countPositions counts, as countPointers does, the pairs of the distinct increasing
