@@ -50,7 +50,7 @@ type pieceStats struct {
 }
 
 func statsOf(pieces []Piece) pieceStats {
-	s := pieceStats{minPitch: 128, maxPitch: -1}
+	s := noStats()
 	for i := range pieces {
 		for j := range pieces[i].Notes {
 			n := &pieces[i].Notes[j]
@@ -67,34 +67,59 @@ func statsOf(pieces []Piece) pieceStats {
 	return s
 }
 
+// noStats are the stats of no notes.
+func noStats() pieceStats { return pieceStats{minPitch: 128, maxPitch: -1} }
+
+// add counts the stats of more notes in s.
+func (s *pieceStats) add(t pieceStats) {
+	s.notes += t.notes
+	s.drums += t.drums
+	s.seconds = max(s.seconds, t.seconds)
+	s.minPitch = min(s.minPitch, t.minPitch)
+	s.maxPitch = max(s.maxPitch, t.maxPitch)
+}
+
 // apply drops drum notes when asked (in place) and checks the rules, returning the
 // stats of what is kept and the first failed rule.
 func (f *Filter) apply(pieces []Piece) (pieceStats, error) {
-	if f.DropDrums {
-		had := false
-		for i := range pieces {
-			before := len(pieces[i].Notes)
-			pieces[i].Notes = slices.DeleteFunc(pieces[i].Notes, func(n Note) bool { return n.Drum })
-			had = had || before > 0
-		}
-		if s := statsOf(pieces); s.notes == 0 && had {
-			return s, ErrOnlyDrums
-		}
-	}
+	had := f.dropDrums(pieces)
 	s := statsOf(pieces)
+	return s, f.check(s, had)
+}
+
+// dropDrums removes the drum notes when the filter asks for it, and reports whether
+// any piece had notes before.
+func (f *Filter) dropDrums(pieces []Piece) (had bool) {
+	if !f.DropDrums {
+		return false
+	}
+	for i := range pieces {
+		before := len(pieces[i].Notes)
+		pieces[i].Notes = slices.DeleteFunc(pieces[i].Notes, func(n Note) bool { return n.Drum })
+		had = had || before > 0
+	}
+	return had
+}
+
+// check returns the first rule that the stats s of what is kept fail; had is what
+// dropDrums returned.
+func (f *Filter) check(s pieceStats, had bool) error {
+	if f.DropDrums && s.notes == 0 && had {
+		return ErrOnlyDrums
+	}
 	switch {
 	case f.MinNotes > 0 && s.notes < f.MinNotes:
-		return s, fmt.Errorf("%d notes, minimum %d: %w", s.notes, f.MinNotes, ErrTooFewNotes)
+		return fmt.Errorf("%d notes, minimum %d: %w", s.notes, f.MinNotes, ErrTooFewNotes)
 	case f.MaxNotes > 0 && s.notes > f.MaxNotes:
-		return s, fmt.Errorf("%d notes, maximum %d: %w", s.notes, f.MaxNotes, ErrTooManyNotes)
+		return fmt.Errorf("%d notes, maximum %d: %w", s.notes, f.MaxNotes, ErrTooManyNotes)
 	case f.MinSeconds > 0 && s.seconds < f.MinSeconds:
-		return s, fmt.Errorf("%.3g s, minimum %g s: %w", s.seconds, f.MinSeconds, ErrTooShort)
+		return fmt.Errorf("%.3g s, minimum %g s: %w", s.seconds, f.MinSeconds, ErrTooShort)
 	case f.MaxSeconds > 0 && s.seconds > f.MaxSeconds:
-		return s, fmt.Errorf("%.4g s, maximum %g s: %w", s.seconds, f.MaxSeconds, ErrTooLong)
+		return fmt.Errorf("%.4g s, maximum %g s: %w", s.seconds, f.MaxSeconds, ErrTooLong)
 	case s.maxPitch >= 0 && s.minPitch < f.MinPitch:
-		return s, fmt.Errorf("key %d below minimum %d: %w", s.minPitch, f.MinPitch, ErrPitchRange)
+		return fmt.Errorf("key %d below minimum %d: %w", s.minPitch, f.MinPitch, ErrPitchRange)
 	case f.MaxPitch > 0 && s.maxPitch > f.MaxPitch:
-		return s, fmt.Errorf("key %d above maximum %d: %w", s.maxPitch, f.MaxPitch, ErrPitchRange)
+		return fmt.Errorf("key %d above maximum %d: %w", s.maxPitch, f.MaxPitch, ErrPitchRange)
 	}
-	return s, nil
+	return nil
 }

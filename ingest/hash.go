@@ -77,8 +77,9 @@ const hashLen = 16
 // ends.
 const maxRunInsert = 16
 
-// hashPiece fills p.MusicalHash and p.TransposedHash.
-func (h *pieceHasher) hashPiece(p *Piece) {
+// hashPiece fills p.MusicalHash and p.TransposedHash, and returns the stats of the
+// piece's notes for the filter (see statsOf, which it must agree with).
+func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	// Onsets are num*scale/den quarter notes (or seconds for SMPTE).
 	scale, den, unit := int64(1), int64(p.TicksPerQuarter), byte('q')
 	if p.SMPTEFPS > 0 {
@@ -103,6 +104,7 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	// part, which a multiplication tests without dividing (see divisible).
 	keys := h.keys[:0]
 	minPitch := uint8(255)
+	st := noStats()
 	sorted := true
 	prev, run := int64(math.MinInt64), 0
 	ored := uint64(den)
@@ -111,8 +113,12 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	for i := range p.Notes {
 		n := &p.Notes[i]
 		k := packKey(n)
-		if !n.Drum && n.Pitch < minPitch {
-			minPitch = n.Pitch
+		st.seconds = max(st.seconds, n.End)
+		if n.Drum {
+			st.drums++
+		} else {
+			minPitch = min(minPitch, n.Pitch)
+			st.maxPitch = max(st.maxPitch, int(n.Pitch))
 		}
 		on, ln := uint64(max(k.start*scale, 0)), uint64(max(k.dur()*scale, 0))
 		ored |= on | ln
@@ -209,6 +215,11 @@ func (h *pieceHasher) hashPiece(p *Piece) {
 	p.MusicalHash = hex.EncodeToString(sum[:hashLen])
 	sum = sha256.Sum256(tr)
 	p.TransposedHash = hex.EncodeToString(sum[:hashLen])
+	st.notes = len(p.Notes)
+	if st.maxPitch >= 0 {
+		st.minPitch = int(minPitch)
+	}
+	return st
 }
 
 func compareKeys(a, b noteKey) int {

@@ -71,8 +71,8 @@ func refGCD(a, b uint64) uint64 {
 	return a
 }
 
-// TestHashPieceMatchesReference compares hashPiece with referenceHashes on random
-// pieces: sorted as Parse delivers them and shuffled, with chords longer than the
+// TestHashPieceMatchesReference compares hashPiece with referenceHashes, and the stats
+// it returns with statsOf, on random pieces: sorted as Parse delivers them and shuffled, with chords longer than the
 // insertion limit, at metrical and SMPTE division, with ticks near the int64 limits.
 func TestHashPieceMatchesReference(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
@@ -101,14 +101,17 @@ func TestHashPieceMatchesReference(t *testing.T) {
 				chord = maxRunInsert + rng.IntN(30)
 			}
 			for range chord {
-				p.Notes = append(p.Notes, Note{StartTick: tick, EndTick: tick + dur,
+				p.Notes = append(p.Notes, Note{StartTick: tick, EndTick: tick + dur, End: float64(rng.IntN(1000)) / 7,
 					Pitch: uint8(rng.IntN(128)), Drum: rng.IntN(8) == 0, Velocity: 64})
 			}
 		}
 		if iter%3 == 0 {
 			rng.Shuffle(len(p.Notes), func(i, j int) { p.Notes[i], p.Notes[j] = p.Notes[j], p.Notes[i] })
 		}
-		h.hashPiece(&p)
+		st := h.hashPiece(&p)
+		if want := statsOf([]Piece{p}); st != want {
+			t.Fatalf("iteration %d: hashPiece stats %+v, statsOf %+v", iter, st, want)
+		}
 		wantM, wantT := referenceHashes(&p)
 		if p.MusicalHash != wantM || p.TransposedHash != wantT {
 			t.Fatalf("iteration %d (%d notes, PPQ %d, SMPTE %g x %d): hashes %s %s, reference %s %s",

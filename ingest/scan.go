@@ -259,13 +259,17 @@ func processEntry(e *entry, opts *Options, h *pieceHasher, buf *[]byte) *Result 
 			rec.Warnings.Add(k, n)
 		}
 	}
-	st, err := opts.Filter.apply(pieces)
+	// The filter's stats come from the hashing pass, which reads every note anyway; a
+	// file the filter then skips is hashed for nothing, but skips are few.
+	had := opts.Filter.dropDrums(pieces)
+	st := noStats()
+	for i := range pieces {
+		st.add(h.hashPiece(&pieces[i]))
+	}
+	err = opts.Filter.check(st, had)
 	rec.Notes, rec.Seconds = st.notes, st.seconds
 	if err != nil {
 		return skip(r, err)
-	}
-	for i := range pieces {
-		h.hashPiece(&pieces[i])
 	}
 	rec.Status = StatusOK
 	r.Pieces = pieces
