@@ -511,10 +511,12 @@ func (c *Counter) countPositions(pos, below, small []int64, maxAbs *int64) {
 	for d := int64(1); d <= a; d++ {
 		q, r := int(d>>6), uint(d&63)
 		var n int
-		var prev uint64 // the word before words[i]
-		for i, w := range words[q:] {
-			src := words[i]
-			n += bits.OnesCount64(w & (src<<r | prev>>(64-r)))
+		var prev uint64 // the word before src
+		hi, lo := words[q:], words[:len(words)-q]
+		for i, w := range hi {
+			src := lo[i]
+			// prev>>1>>(63−r) is prev>>(64−r), 0 when r = 0, with both shifts below 64
+			n += bits.OnesCount64(w & (src<<r | prev>>1>>((63-r)&63)))
 			prev = src
 		}
 		hist = append(hist, int64(n))
