@@ -209,22 +209,7 @@ func (e *Encoder) cut(s []Token, v Variant, yield func(Window) error, inPlace bo
 		if grid && inPlace {
 			at = e.gridStateAt(&st, s, at, start, &mark)
 		} else if grid {
-			kinds := e.vocab.kinds
-			for ; at < start; at++ {
-				switch kinds[s[at].ID] {
-				case KindBar:
-					st.bar = s[at]
-					st.pos = Token{}
-				case KindMeter:
-					st.meter = s[at]
-				case KindTempo:
-					st.tempo = s[at]
-				case KindPosition:
-					st.pos = s[at]
-				case KindInst:
-					st.inst = s[at]
-				}
-			}
+			at = e.followGridState(&st, s, at, start)
 		} else if start > 0 {
 			e.lastVelocity(&st, s, start)
 		}
@@ -288,6 +273,12 @@ func (e *Encoder) gridStateAt(st *cutState, s []Token, at, start int, mi *int) i
 		st.bar, st.pos, st.meter, st.tempo, st.inst = s[m.at], Token{}, m.meter, m.tempo, m.inst
 		at = int(m.at) + 1
 	}
+	return e.followGridState(st, s, at, start)
+}
+
+// followGridState applies the state tokens of s[at:start] (bar, meter, tempo,
+// position, instrument) to st and returns start.
+func (e *Encoder) followGridState(st *cutState, s []Token, at, start int) int {
 	kinds := e.vocab.kinds
 	for ; at < start; at++ {
 		switch kinds[s[at].ID] {
