@@ -12,22 +12,25 @@ import (
 )
 
 // datasetWriter cuts a stream of rows, given in a deterministic order, into
-// shards per split and writes full shards on up to workers goroutines. Where a
-// shard is cut depends only on the rows before it, never on timing, so the files
-// are the same for every worker count. Memory is bounded by one open shard per
-// split plus one shard per writing worker (less: a shard being written drops
-// each row group once it is encoded).
+// shards per split, and the shards into row groups. Each shard is encoded on its
+// own goroutine while its rows arrive: a full row group is handed over and
+// compressed while the next one fills, so encoding overlaps the work upstream and
+// the splits are encoded in parallel. Where shards and row groups are cut depends
+// only on the rows before them, never on timing, so the files are the same for
+// every worker count. Memory is bounded by about two row groups per open shard
+// (one filling, one being encoded), whatever the shard size and the corpus size.
 type datasetWriter struct {
 	dir     string
 	part    Part
 	rows    int64 // shard row target, or 0
 	bytes   int64 // shard payload target when rows is 0
+	group   int64 // row-group payload target
 	opt     ShardOptions
 	g       *errgroup.Group
 	ctx     context.Context
-	slots   chan struct{}
-	open    map[string]*openShard
-	seq     map[string]int
+	cancel  context.CancelFunc
+	slots   chan struct{} // bounds the shards open or finishing at once
+	streams map[string]*splitStream
 	onShard func(Shard) // called after each shard is written, serialized
 	onReuse func()      // called after each shard kept from an interrupted run, serialized
 	journal *journal    // nil: every shard is written
@@ -40,89 +43,94 @@ type numbered struct {
 	seq int
 }
 
-type openShard struct {
-	rows  []Row
-	bytes int64
+// splitStream is the open shard of one split, as seen by the goroutine calling add.
+type splitStream struct {
+	seq        int        // number of the next shard
+	groups     chan []Row // to the open shard's encoder; nil when none is open
+	group      []Row      // the row group being filled
+	groupBytes int64
+	rows       int64 // rows of the open shard
+	bytes      int64 // payload of the open shard
 }
 
 func newDatasetWriter(ctx context.Context, dir string, part Part, s Settings, opt ShardOptions, workers int, onShard func(Shard)) *datasetWriter {
 	if workers < 1 {
 		workers = 1
 	}
+	ctx, cancel := context.WithCancel(ctx)
 	g, gctx := errgroup.WithContext(ctx)
-	return &datasetWriter{
-		dir: dir, part: part, rows: s.Rows, bytes: s.shardBytes(), opt: opt,
-		g: g, ctx: gctx, slots: make(chan struct{}, workers),
-		open: map[string]*openShard{}, seq: map[string]int{}, onShard: onShard,
+	return &datasetWriter{cancel: cancel,
+		dir: dir, part: part, rows: s.Rows, bytes: s.shardBytes(), group: opt.rowGroupBytes(), opt: opt,
+		// One open shard per split must always fit, or a split could wait for a
+		// slot that only its own rows would free.
+		g: g, ctx: gctx, slots: make(chan struct{}, len(Splits)+workers),
+		streams: map[string]*splitStream{}, onShard: onShard,
 	}
 }
 
 // add appends one row (taking ownership of its slices) to its split's open
-// shard, and hands the shard to a writer when it is full. It blocks while every
-// writer is busy.
+// shard, hands the row group to the shard's encoder when it is full, and closes
+// the shard when it is full. It blocks while the encoder is busy with the
+// previous row group.
 func (w *datasetWriter) add(r Row) error {
-	o := w.open[r.Split]
-	if o == nil {
-		o = &openShard{}
-		w.open[r.Split] = o
+	s := w.streams[r.Split]
+	if s == nil {
+		s = &splitStream{}
+		w.streams[r.Split] = s
 	}
-	o.rows = append(o.rows, r)
-	o.bytes += r.payloadBytes()
-	if (w.rows > 0 && int64(len(o.rows)) >= w.rows) || (w.rows == 0 && o.bytes >= w.bytes) {
-		return w.cut(r.Split)
+	if s.groups == nil {
+		if err := w.open(r.Split, s); err != nil {
+			return err
+		}
+	}
+	n := r.payloadBytes()
+	s.group = append(s.group, r)
+	s.groupBytes += n
+	s.rows++
+	s.bytes += n
+	full := (w.rows > 0 && s.rows >= w.rows) || (w.rows == 0 && s.bytes >= w.bytes)
+	if full || s.groupBytes >= w.group {
+		if err := w.send(s); err != nil {
+			return err
+		}
+	}
+	if full {
+		w.closeShard(s)
 	}
 	return nil
 }
 
-func (w *datasetWriter) cut(split string) error {
-	o := w.open[split]
-	if o == nil || len(o.rows) == 0 {
-		return nil
+// failed returns the error that stopped the writers.
+func (w *datasetWriter) failed() error {
+	err := w.g.Wait()
+	if err == nil {
+		err = w.ctx.Err()
 	}
-	delete(w.open, split)
-	rel := shardName(split, w.part, w.seq[split])
-	w.seq[split]++
+	return err
+}
+
+// open starts the encoder of the split's next shard.
+func (w *datasetWriter) open(split string, s *splitStream) error {
 	select {
 	case w.slots <- struct{}{}:
 	case <-w.ctx.Done():
-		err := w.g.Wait()
-		if err == nil {
-			err = w.ctx.Err()
-		}
-		return err
+		return w.failed()
 	}
-	seq := w.seq[split] - 1
+	seq := s.seq
+	s.seq++
+	rel := shardName(split, w.part, seq)
+	groups := make(chan []Row)
+	s.groups = groups
 	opt := w.opt
 	opt.Metadata = withSplit(opt.Metadata, split)
 	w.g.Go(func() error {
 		defer func() { <-w.slots }()
-		if err := w.ctx.Err(); err != nil {
+		sh, reused, err := w.encode(rel, split, groups, opt)
+		if err != nil {
 			return err
 		}
-		p := filepath.Join(w.dir, filepath.FromSlash(rel))
-		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
-			return fmt.Errorf("create %s folder: %w", split, err)
-		}
-		var digest string
-		reused := false
-		var sh Shard
-		if w.journal != nil {
-			digest = shardDigest(o.rows, opt)
-			sh, reused = w.journal.reuse(rel, digest)
-		}
-		if !reused {
-			var err error
-			if sh, err = writeShard(p, o.rows, opt, true); err != nil {
-				return err
-			}
-			sh.Path, sh.Split = rel, split
-			if w.journal != nil {
-				if err := w.journal.record(digest, sh); err != nil {
-					return err
-				}
-			}
-		}
 		w.mu.Lock()
+		defer w.mu.Unlock()
 		if reused && w.onReuse != nil {
 			w.onReuse()
 		}
@@ -130,21 +138,118 @@ func (w *datasetWriter) cut(split string) error {
 		if w.onShard != nil {
 			w.onShard(sh)
 		}
-		w.mu.Unlock()
 		return nil
 	})
 	return nil
 }
 
+// send hands the filled row group to the open shard's encoder.
+func (w *datasetWriter) send(s *splitStream) error {
+	if len(s.group) == 0 {
+		return nil
+	}
+	select {
+	case s.groups <- s.group:
+	case <-w.ctx.Done():
+		return w.failed()
+	}
+	s.group = make([]Row, 0, cap(s.group))
+	s.groupBytes = 0
+	return nil
+}
+
+// closeShard ends the open shard: its encoder writes the footer and commits it.
+func (w *datasetWriter) closeShard(s *splitStream) {
+	close(s.groups)
+	s.groups = nil
+	s.rows, s.bytes = 0, 0
+}
+
+// encode writes the row groups received on groups as the shard rel, and commits
+// it when groups is closed. When the interrupted run of the same config completed
+// the same shard (same bytes, file intact), the file on disk is kept instead and
+// reused is true: shard bytes follow from their rows and options alone, so equal
+// bytes mean equal contents.
+func (w *datasetWriter) encode(rel, split string, groups <-chan []Row, opt ShardOptions) (sh Shard, reused bool, err error) {
+	p := filepath.Join(w.dir, filepath.FromSlash(rel))
+	sh = Shard{Path: rel, Split: split}
+	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+		return sh, false, fmt.Errorf("create %s folder: %w", split, err)
+	}
+	sf, err := createShardFile(p)
+	if err != nil {
+		return sh, false, err
+	}
+	committed := false
+	defer func() {
+		if !committed {
+			sf.discard()
+		}
+	}()
+	enc, err := newShardEncoder(sf, opt)
+	if err != nil {
+		return sh, false, err
+	}
+	for {
+		var rows []Row
+		var ok bool
+		select {
+		case rows, ok = <-groups:
+		case <-w.ctx.Done():
+			return sh, false, w.ctx.Err()
+		}
+		if !ok {
+			break
+		}
+		for i := range rows {
+			sh.Tokens += int64(len(rows[i].Tokens))
+		}
+		if err := enc.writeGroup(rows); err != nil {
+			return sh, false, fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(rows))-1, err)
+		}
+		sh.Rows += int64(len(rows))
+		clear(rows) // the encoder holds copies; let the rows' slices go
+	}
+	if err := enc.close(); err != nil {
+		return sh, false, fmt.Errorf("write shard %s: %w", rel, err)
+	}
+	if w.journal != nil {
+		n, sum, err := sf.sum()
+		if err != nil {
+			return sh, false, err
+		}
+		if prev, ok := w.journal.reuse(rel, sum, n); ok {
+			return prev, true, nil // the deferred discard removes the copy
+		}
+	}
+	if sh.Bytes, sh.SHA256, err = sf.commit(); err != nil {
+		return sh, false, err
+	}
+	committed = true
+	if w.journal != nil {
+		if err := w.journal.record(sh.SHA256, sh); err != nil {
+			return sh, false, err
+		}
+	}
+	return sh, false, nil
+}
+
 // finish writes the open shards, waits for every writer, and returns the shards
 // in manifest order: by split, then by number.
 func (w *datasetWriter) finish() ([]Shard, error) {
-	for _, s := range Splits {
-		if err := w.cut(s); err != nil {
+	for _, split := range Splits {
+		s := w.streams[split]
+		if s == nil || s.groups == nil {
+			continue
+		}
+		if err := w.send(s); err != nil {
 			break
 		}
+		w.closeShard(s)
 	}
-	if err := w.g.Wait(); err != nil {
+	err := w.g.Wait()
+	w.cancel()
+	if err != nil {
 		return nil, err
 	}
 	order := map[string]int{}
@@ -164,8 +269,12 @@ func (w *datasetWriter) finish() ([]Shard, error) {
 	return out, nil
 }
 
-// abort stops and waits for the writers after a failure elsewhere.
-func (w *datasetWriter) abort() { _ = w.g.Wait() }
+// abort stops and waits for the writers after a failure elsewhere. The open
+// shards are abandoned, never committed: their rows are incomplete.
+func (w *datasetWriter) abort() {
+	w.cancel()
+	_ = w.g.Wait()
+}
 
 func withSplit(meta map[string]string, split string) map[string]string {
 	m := make(map[string]string, len(meta)+1)

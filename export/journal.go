@@ -1,20 +1,13 @@
 package export
 
 import (
-	"bufio"
 	"bytes"
-	"crypto/sha256"
-	"encoding/binary"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"io/fs"
-	"maps"
-	"math"
 	"os"
 	"path/filepath"
-	"slices"
 	"sync"
 )
 
@@ -23,8 +16,8 @@ import (
 // them again. It exists only while a run is unfinished.
 const JournalName = ".relshard-journal.jsonl"
 
-// journalEntry is one line of the journal: a shard and the digest of what went
-// into it (its rows and the writer options).
+// journalEntry is one line of the journal: a shard and the digest of its bytes
+// (the hex SHA-256 of the file, which follows from its rows and writer options).
 type journalEntry struct {
 	Digest string `json:"digest"`
 	Shard  Shard  `json:"shard"`
@@ -77,21 +70,23 @@ func openJournal(dir string, resume bool) (*journal, error) {
 	return j, nil
 }
 
-// reuse reports whether the shard at rel, with the given digest, was completed by
-// the interrupted run and is still intact on disk; it then returns its entry.
-func (j *journal) reuse(rel, digest string) (Shard, bool) {
+// reuse reports whether the shard at rel, whose encoding came out with the given
+// size and hex SHA-256, was completed by the interrupted run and is still intact
+// on disk; it then returns its entry. Shard bytes follow from the rows and the
+// writer options alone, so equal bytes mean the same shard.
+func (j *journal) reuse(rel, sum string, size int64) (Shard, bool) {
 	j.mu.Lock()
 	e, ok := j.prev[rel]
 	j.mu.Unlock()
-	if !ok || e.Digest != digest {
+	if !ok || e.Shard.SHA256 != sum || e.Shard.Bytes != size {
 		return Shard{}, false
 	}
 	p, err := localPath(j.dir, rel)
 	if err != nil {
 		return Shard{}, false
 	}
-	size, sum, err := fileSHA256(p)
-	if err != nil || size != e.Shard.Bytes || sum != e.Shard.SHA256 {
+	n, onDisk, err := fileSHA256(p)
+	if err != nil || n != size || onDisk != sum {
 		return Shard{}, false
 	}
 	return e.Shard, true
@@ -125,49 +120,4 @@ func removeJournal(dir string) error {
 		return fmt.Errorf("remove journal: %w", err)
 	}
 	return nil
-}
-
-// shardDigest is the SHA-256 of everything that decides a shard's bytes: the
-// writer options and every field of every row, each length-prefixed.
-func shardDigest(rows []Row, opt ShardOptions) string {
-	h := sha256.New()
-	bw := bufio.NewWriterSize(h, 64<<10)
-	var b []byte
-	str := func(s string) {
-		b = binary.LittleEndian.AppendUint64(b[:0], uint64(len(s)))
-		bw.Write(b)
-		bw.WriteString(s)
-	}
-	str(opt.Compression)
-	str(opt.CreatedBy)
-	b = binary.LittleEndian.AppendUint64(b[:0], uint64(opt.RowGroupBytes))
-	bw.Write(b)
-	for _, k := range slices.Sorted(maps.Keys(opt.Metadata)) {
-		str(k)
-		str(opt.Metadata[k])
-	}
-	for i := range rows {
-		r := &rows[i]
-		for _, s := range []string{r.Piece, r.Dataset, r.Source, r.ContentHash, r.Split} {
-			str(s)
-		}
-		b = binary.LittleEndian.AppendUint32(b[:0], uint32(r.Window))
-		b = binary.LittleEndian.AppendUint32(b, uint32(r.Transpose))
-		b = binary.LittleEndian.AppendUint32(b, math.Float32bits(r.Stretch))
-		for _, l := range [][]int32{r.Tokens, r.Time} {
-			b = binary.LittleEndian.AppendUint64(b, uint64(len(l)))
-			for _, v := range l {
-				b = binary.LittleEndian.AppendUint32(b, uint32(v))
-			}
-		}
-		for _, l := range [][]int16{r.Pitch, r.Inst} {
-			b = binary.LittleEndian.AppendUint64(b, uint64(len(l)))
-			for _, v := range l {
-				b = binary.LittleEndian.AppendUint16(b, uint16(v))
-			}
-		}
-		bw.Write(b)
-	}
-	bw.Flush()
-	return hex.EncodeToString(h.Sum(nil))
 }

@@ -81,34 +81,76 @@ func writeShard(path string, rows []Row, opt ShardOptions, release bool) (Shard,
 	for i := range rows {
 		sh.Tokens += int64(len(rows[i].Tokens))
 	}
+	sf, err := createShardFile(path)
+	if err != nil {
+		return sh, err
+	}
+	if err := encodeShard(sf, rows, opt, release); err != nil {
+		sf.discard()
+		return sh, fmt.Errorf("write shard %s: %w", filepath.Base(path), err)
+	}
+	if sh.Bytes, sh.SHA256, err = sf.commit(); err != nil {
+		return sh, err
+	}
+	return sh, nil
+}
+
+// shardFile is a shard being written under its temporary name, hashed and
+// counted on the way.
+type shardFile struct {
+	path, tmp string
+	f         *os.File
+	h         hash.Hash
+	cw        *countWriter
+	bw        *bufio.Writer
+}
+
+func createShardFile(path string) (*shardFile, error) {
 	tmp := path + TempSuffix
 	f, err := os.OpenFile(tmp, os.O_CREATE|os.O_TRUNC|os.O_WRONLY, 0o644)
 	if err != nil {
-		return sh, fmt.Errorf("create shard: %w", err)
+		return nil, fmt.Errorf("create shard: %w", err)
 	}
-	h := sha256.New()
-	cw := &countWriter{w: io.MultiWriter(f, h)}
-	bw := bufio.NewWriterSize(cw, 1<<20)
-	err = encodeShard(bw, rows, opt, release)
+	sf := &shardFile{path: path, tmp: tmp, f: f, h: sha256.New()}
+	sf.cw = &countWriter{w: io.MultiWriter(f, sf.h)}
+	sf.bw = bufio.NewWriterSize(sf.cw, 1<<20)
+	return sf, nil
+}
+
+func (s *shardFile) Write(p []byte) (int, error) { return s.bw.Write(p) }
+
+// sum flushes the buffer and returns the size and hex SHA-256 of the file so far.
+func (s *shardFile) sum() (int64, string, error) {
+	if err := s.bw.Flush(); err != nil {
+		return 0, "", fmt.Errorf("write shard %s: %w", filepath.Base(s.path), err)
+	}
+	return s.cw.n, hex.EncodeToString(s.h.Sum(nil)), nil
+}
+
+// commit makes the file durable (synced before the rename, so the final name
+// never holds a partial file) and renames it to its final name.
+func (s *shardFile) commit() (int64, string, error) {
+	n, sum, err := s.sum()
 	if err == nil {
-		err = bw.Flush()
+		err = s.f.Sync()
 	}
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
+	if cerr := s.f.Close(); err == nil {
 		err = cerr
 	}
 	if err == nil {
-		err = os.Rename(tmp, path)
+		err = os.Rename(s.tmp, s.path)
 	}
 	if err != nil {
-		os.Remove(tmp)
-		return sh, fmt.Errorf("write shard %s: %w", filepath.Base(path), err)
+		os.Remove(s.tmp)
+		return 0, "", fmt.Errorf("write shard %s: %w", filepath.Base(s.path), err)
 	}
-	sh.Bytes = cw.n
-	sh.SHA256 = hex.EncodeToString(h.Sum(nil))
-	return sh, nil
+	return n, sum, nil
+}
+
+// discard abandons the file.
+func (s *shardFile) discard() {
+	s.f.Close()
+	os.Remove(s.tmp)
 }
 
 // TempSuffix ends the name of every file being written; such a file is never
@@ -122,17 +164,53 @@ func EncodeShard(w io.Writer, rows []Row, opt ShardOptions) error {
 }
 
 func encodeShard(w io.Writer, rows []Row, opt ShardOptions, release bool) error {
+	enc, err := newShardEncoder(w, opt)
+	if err != nil {
+		return err
+	}
+	groupBytes := opt.rowGroupBytes()
+	var group int64
+	start := 0
+	for i := range rows {
+		group += rows[i].payloadBytes()
+		if group < groupBytes && i+1 < len(rows) {
+			continue
+		}
+		if err := enc.writeGroup(rows[start : i+1]); err != nil {
+			return fmt.Errorf("rows %d-%d: %w", start, i, err)
+		}
+		if release {
+			clear(rows[start : i+1])
+		}
+		start, group = i+1, 0
+	}
+	return enc.close()
+}
+
+// rowGroupBytes is the row-group target in effect.
+func (opt ShardOptions) rowGroupBytes() int64 {
+	if opt.RowGroupBytes <= 0 {
+		return DefaultRowGroupBytes
+	}
+	return opt.RowGroupBytes
+}
+
+// shardEncoder writes one Parquet file a row group at a time, so that a shard
+// never needs more than one row group of rows in memory. A group is written with
+// a single Write, then flushed: page boundaries follow the rows given to one
+// Write, so the same groups give the same bytes however they were collected.
+type shardEncoder struct {
+	pw *parquet.GenericWriter[Row]
+}
+
+func newShardEncoder(w io.Writer, opt ShardOptions) (*shardEncoder, error) {
 	name := opt.Compression
 	if name == "" {
 		name = CompressionZstd
 	}
 	codec, ok := codecs[name]
 	if !ok {
-		return fmt.Errorf("unknown compression %q (want zstd, snappy or none)", name)
-	}
-	groupBytes := opt.RowGroupBytes
-	if groupBytes <= 0 {
-		groupBytes = DefaultRowGroupBytes
+		return nil, fmt.Errorf("unknown compression %q (want zstd, snappy or none)", name)
 	}
 	options := []parquet.WriterOption{
 		parquet.Compression(codec),
@@ -149,26 +227,23 @@ func encodeShard(w io.Writer, rows []Row, opt ShardOptions, release bool) error 
 	for _, k := range slices.Sorted(maps.Keys(opt.Metadata)) {
 		options = append(options, parquet.KeyValueMetadata(k, opt.Metadata[k]))
 	}
-	pw := parquet.NewGenericWriter[Row](w, options...)
-	var group int64
-	start := 0
-	for i := range rows {
-		group += rows[i].payloadBytes()
-		if group < groupBytes && i+1 < len(rows) {
-			continue
-		}
-		if _, err := pw.Write(rows[start : i+1]); err != nil {
-			return fmt.Errorf("encode rows %d-%d: %w", start, i, err)
-		}
-		if err := pw.Flush(); err != nil {
-			return fmt.Errorf("flush row group: %w", err)
-		}
-		if release {
-			clear(rows[start : i+1])
-		}
-		start, group = i+1, 0
+	return &shardEncoder{pw: parquet.NewGenericWriter[Row](w, options...)}, nil
+}
+
+// writeGroup encodes rows as one row group; the rows may be reused afterwards.
+func (e *shardEncoder) writeGroup(rows []Row) error {
+	if _, err := e.pw.Write(rows); err != nil {
+		return fmt.Errorf("encode rows: %w", err)
 	}
-	if err := pw.Close(); err != nil {
+	if err := e.pw.Flush(); err != nil {
+		return fmt.Errorf("flush row group: %w", err)
+	}
+	return nil
+}
+
+// close writes the footer.
+func (e *shardEncoder) close() error {
+	if err := e.pw.Close(); err != nil {
 		return fmt.Errorf("close parquet writer: %w", err)
 	}
 	return nil
