@@ -53,17 +53,25 @@ func DefaultOptions() Options {
 // one (of any earlier file); its kind is then the coarsest kind among its pieces.
 //
 // Bad files are reported in their records and the scan goes on, unless Strict. Scan
-// returns an error when a source does not exist or is of an unknown kind (before
-// anything is read), when yield returns one, when ctx ends, or under Strict.
+// returns an error when a source does not exist or is of an unknown kind, or when two
+// sources have the same dataset name (ErrDatasetClash; all before anything is read), when yield returns one, when ctx ends, or under Strict.
 func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Result) error) error {
 	opts = opts.withDefaults()
 	kinds := make([]sourceKind, len(sources))
+	first := make(map[string]string, len(sources)) // dataset name → the source that has it
 	for i, s := range sources {
 		k, err := s.kind()
 		if err != nil {
 			return err
 		}
 		kinds[i] = k
+		// Records and piece ids are keyed by dataset and path, so two sources of one
+		// name could give two inputs the same key.
+		name := s.DatasetName()
+		if prev, ok := first[name]; ok {
+			return fmt.Errorf("sources %s and %s are both dataset %q: name one with NAME=PATH: %w", prev, s.Path, name, ErrDatasetClash)
+		}
+		first[name] = s.Path
 	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
