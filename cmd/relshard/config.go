@@ -11,6 +11,7 @@ import (
 	"go.yaml.in/yaml/v3"
 
 	"github.com/relshard/relshard/export"
+	"github.com/relshard/relshard/relpos"
 )
 
 // The config file, shared by every command that reads MIDI and encodes it
@@ -26,6 +27,8 @@ import (
 //	  transpose: [0, -2, 2]
 //	buckets:  # relative-position schemes (relpos.Config)
 //	  pairs: causal
+//	sweep:    # the grid of relshard sweep (relpos.Grid); other commands ignore it
+//	  time: {widths: [10, 20], clips: [32, 64], log: [{buckets: 32, max: 2048}]}
 //	licenses: # dataset name -> licence/provenance text for the manifest
 //	  lakh: "CC-BY 4.0, see https://example.org/terms"
 //	shards:   # shard files and splits (export.Settings)
@@ -48,6 +51,9 @@ import (
 type configFile struct {
 	export.Config `yaml:",inline"`
 	Licenses      map[string]string `yaml:"licenses"`
+	// Sweep is the grid of relshard sweep (the same keys as its flags: per kind
+	// widths, clips and log settings); other commands ignore it.
+	Sweep *relpos.Grid `yaml:"sweep"`
 }
 
 // loadConfig returns export.DefaultConfig() overlaid with the YAML config file at

@@ -58,8 +58,27 @@ func (o *sweepOptions) Validate(cmd *cobra.Command) error {
 	if o.budget < 0 {
 		return usageError("--budget %d: want ≥ 0", o.budget)
 	}
+	// The grid: defaults, then the config file's sweep section, then the flags set.
+	cf, err := loadConfigFile(o.corpus.configPath)
+	if err != nil {
+		return err
+	}
+	grid := relpos.DefaultGrid()
+	if cf.Sweep != nil {
+		grid = overlayGrid(grid, *cf.Sweep)
+	}
 	for i, k := range relpos.Kinds {
-		kg := []*relpos.KindGrid{&o.grid.Distance, &o.grid.Time, &o.grid.Pitch}[i]
+		kg := []*relpos.KindGrid{&grid.Distance, &grid.Time, &grid.Pitch}[i]
+		fl := []*relpos.KindGrid{&o.grid.Distance, &o.grid.Time, &o.grid.Pitch}[i]
+		if cmd.Flags().Changed(k.String() + "-widths") {
+			kg.Widths = fl.Widths
+		}
+		if cmd.Flags().Changed(k.String() + "-clips") {
+			kg.Clips = fl.Clips
+		}
+		if !cmd.Flags().Changed(k.String() + "-log") {
+			continue
+		}
 		kg.Log = nil
 		for _, v := range o.logs[i] {
 			b, m, ok := strings.Cut(v, ":")
@@ -71,6 +90,7 @@ func (o *sweepOptions) Validate(cmd *cobra.Command) error {
 			kg.Log = append(kg.Log, relpos.LogSetting{Buckets: nb, Max: nm})
 		}
 	}
+	o.grid = grid
 	cfg, err := o.corpus.config(cmd, &o.relpos)
 	if err != nil {
 		return err
@@ -80,6 +100,23 @@ func (o *sweepOptions) Validate(cmd *cobra.Command) error {
 	}
 	o.cfg = cfg
 	return nil
+}
+
+// overlayGrid returns g with every list the file sets (non-nil) replaced.
+func overlayGrid(g, file relpos.Grid) relpos.Grid {
+	for _, pair := range [][2]*relpos.KindGrid{{&g.Distance, &file.Distance}, {&g.Time, &file.Time}, {&g.Pitch, &file.Pitch}} {
+		dst, src := pair[0], pair[1]
+		if src.Widths != nil {
+			dst.Widths = src.Widths
+		}
+		if src.Clips != nil {
+			dst.Clips = src.Clips
+		}
+		if src.Log != nil {
+			dst.Log = src.Log
+		}
+	}
+	return g
 }
 
 // sweepJSON is the JSON output.
@@ -171,8 +208,11 @@ time use only the buckets of offsets ≤ 0), the share of pairs inside its range
 saturated, the unused buckets and the effective number of buckets; --budget N keeps the
 settings of at most N rows.
 
-The config file (--config, the one export reads) gives the input, tokens and pairs;
-the grid comes from the flags.
+The config file (--config, the one export reads) gives the input, tokens and pairs,
+and its sweep section the grid, with the flags' keys (a flag set wins for its list):
+
+  sweep:
+    time: {widths: [10, 20, 50], clips: [32, 64], log: [{buckets: 32, max: 2048}]}
 
 Example: relshard sweep corpus/ --time-widths 10,20,50 --time-clips 32,64 --budget 129
 ` + exitCodesHelp,

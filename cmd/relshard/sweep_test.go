@@ -2,6 +2,9 @@ package main
 
 import (
 	"encoding/json"
+	"os"
+	"path/filepath"
+	"slices"
 	"testing"
 
 	"github.com/relshard/relshard/relpos"
@@ -42,5 +45,39 @@ func TestSweepMatchesCoverage(t *testing.T) {
 	}
 	if code, _, _ := runArgs(t, "sweep", corpus, "--time-log", "32"); code != exitUsage {
 		t.Errorf("bad --time-log: exit %d", code)
+	}
+}
+
+// The config file's sweep section gives the grid, with the same keys as the flags;
+// a flag that is set wins over the file for its own list only.
+func TestSweepGridFromConfig(t *testing.T) {
+	corpus := demoCorpus(t)
+	cfg := filepath.Join(t.TempDir(), "sweep.yaml")
+	if err := os.WriteFile(cfg, []byte("sweep:\n  time:\n    widths: [20]\n    clips: [5]\n    log: []\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	timeSchemes := func(args ...string) []string {
+		t.Helper()
+		code, out, errOut := runArgs(t, append([]string{"sweep", corpus, "--json", "--max-len", "256", "--config", cfg}, args...)...)
+		if code != exitSkipped {
+			t.Fatalf("exit %d: %s", code, errOut)
+		}
+		var sw sweepJSON
+		if err := json.Unmarshal([]byte(out), &sw); err != nil {
+			t.Fatal(err)
+		}
+		var got []string
+		for _, r := range sw.Settings {
+			if r.Kind == "time" {
+				got = append(got, r.Scheme)
+			}
+		}
+		return got
+	}
+	if got, want := timeSchemes(), []string{"linear:width=20,clip=5"}; !slices.Equal(got, want) {
+		t.Errorf("time settings from the file %v, want %v", got, want)
+	}
+	if got, want := timeSchemes("--time-clips", "7"), []string{"linear:width=20,clip=7"}; !slices.Equal(got, want) {
+		t.Errorf("time settings with --time-clips 7 %v, want %v", got, want)
 	}
 }
