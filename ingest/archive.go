@@ -96,24 +96,6 @@ func entryCheck(name string, mode fs.FileMode, size int64, lim *Limits, maxFile 
 	return true, nil
 }
 
-// repeats gives each entry of an archive (in sorted order) a record name of its own.
-// An archive may hold two entries of one name; the later ones are skipped with
-// ErrDuplicateEntry under the names "NAME (repeat 2)", "NAME (repeat 3)"..., so that
-// every entry keeps a record and no two records share a path.
-type repeats struct {
-	last string
-	n    int
-}
-
-func (r *repeats) next(name string) (string, error) {
-	if r.n > 0 && name == r.last {
-		r.n++
-		return fmt.Sprintf("%s (repeat %d)", name, r.n), fmt.Errorf("%d entries named %s: %w", r.n, name, ErrDuplicateEntry)
-	}
-	r.last, r.n = name, 1
-	return name, nil
-}
-
 // enumerateZip emits the entries of a zip file sorted by name (ties in directory order).
 func enumerateZip(ctx context.Context, path string, base entry, opts *Options, emit emitFunc) error {
 	lim := &opts.Limits
@@ -147,7 +129,6 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 	}
 	files := slices.Clone(zr.File)
 	slices.SortStableFunc(files, func(a, b *zip.File) int { return strings.Compare(a.Name, b.Name) })
-	var rep repeats
 	for _, zf := range files {
 		if ctx.Err() != nil {
 			return ctx.Err()
@@ -158,12 +139,8 @@ func enumerateZip(ctx context.Context, path string, base entry, opts *Options, e
 			continue
 		}
 		e := base
-		name, dupErr := rep.next(zf.Name)
-		e.path = base.path + name
+		e.path = base.path + zf.Name
 		e.err = err
-		if dupErr != nil {
-			e.err = dupErr
-		}
 		if err == nil && zf.Flags&0x1 != 0 {
 			// General purpose bit 0: encrypted (PKWARE APPNOTE.TXT, section 4.4.4).
 			e.err = fmt.Errorf("encrypted entry: %w", ErrSpecialEntry)
@@ -205,11 +182,10 @@ const maxPrealloc = 1 << 20
 
 // tarItem is one tar header seen in the listing pass.
 type tarItem struct {
-	name   string
-	record string // the record's name: name, or name with a repeat number
-	size   int64
-	index  int   // position in the stream
-	err    error // why it is skipped; nil to read it
+	name  string
+	size  int64
+	index int   // position in the stream
+	err   error // why it is skipped; nil to read it
 }
 
 // tarStream opens the tar stream of a file, through gzip when compressed. An
@@ -289,14 +265,6 @@ func enumerateTar(ctx context.Context, path string, gz bool, base entry, opts *O
 		return emit(archiveError(base, refused))
 	}
 	slices.SortStableFunc(items, func(a, b tarItem) int { return strings.Compare(a.name, b.name) })
-	var rep repeats
-	for i := range items {
-		name, dupErr := rep.next(items[i].name)
-		if dupErr != nil {
-			items[i].err = dupErr
-		}
-		items[i].record = name
-	}
 	for start := 0; start < len(items); {
 		// A window of consecutive items (in sorted order) whose bytes fit the buffer cap.
 		end, buffered, need := start, int64(0), 0
@@ -322,7 +290,7 @@ func enumerateTar(ctx context.Context, path string, gz bool, base entry, opts *O
 		}
 		for _, it := range window {
 			e := base
-			e.path = base.path + it.record
+			e.path = base.path + it.name
 			e.err = it.err
 			if e.err == nil {
 				b, ok := data[it.index]

@@ -62,8 +62,7 @@ var (
 	ErrArchiveChanged  = errors.New("archive changed while being read")
 	ErrBadArchive      = errors.New("damaged archive")
 	ErrUnknownSource   = errors.New("not a folder, archive, path list or MIDI file")
-	ErrDatasetClash    = errors.New("two sources with one dataset name")
-	ErrDuplicateEntry  = errors.New("entry name repeated in the archive")
+	ErrRepeatedPath    = errors.New("dataset and path already given to an earlier input")
 )
 
 // readCapped reads all of r when it holds at most max bytes, and never reads more than

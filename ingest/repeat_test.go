@@ -8,12 +8,13 @@ import (
 	"errors"
 	"os"
 	"path/filepath"
+	"slices"
 	"testing"
 )
 
 // TestRepeatedEntryNames checks that an archive holding two entries of one name gives
 // each its own record: the first is read, the later one is skipped with
-// ErrDuplicateEntry under a name of its own, so no two records share a path.
+// ErrRepeatedPath under a name of its own, so no two records share a path.
 func TestRepeatedEntryNames(t *testing.T) {
 	smfA := specFormat0() // SMF 1.0 example file, format-0 rendition
 	smfB := append([]byte(nil), smfA...)
@@ -65,16 +66,17 @@ func TestRepeatedEntryNames(t *testing.T) {
 			if got[0].Path != "same.mid" || got[0].Status != StatusOK {
 				t.Errorf("first record %q %s, want same.mid ok", got[0].Path, got[0].Status)
 			}
-			if got[1].Path != "same.mid (repeat 2)" || got[1].Status != StatusSkipped || !errors.Is(errs[1], ErrDuplicateEntry) {
-				t.Errorf("second record %q %s (%v), want \"same.mid (repeat 2)\" skipped with ErrDuplicateEntry", got[1].Path, got[1].Status, errs[1])
+			if got[1].Path != "same.mid (repeat 2)" || got[1].Status != StatusSkipped || !errors.Is(errs[1], ErrRepeatedPath) {
+				t.Errorf("second record %q %s (%v), want \"same.mid (repeat 2)\" skipped with ErrRepeatedPath", got[1].Path, got[1].Status, errs[1])
 			}
 		})
 	}
 }
 
-// TestDatasetClash checks that two sources of one dataset name are refused before
-// anything is read: their records and piece ids would collide.
-func TestDatasetClash(t *testing.T) {
+// TestRepeatedPathAcrossSources checks two sources of one dataset name that hold the
+// same relative path: the later file keeps a record of its own, skipped with
+// ErrRepeatedPath, so every input is accounted for under a distinct name.
+func TestRepeatedPathAcrossSources(t *testing.T) {
 	root := t.TempDir()
 	for _, sub := range []string{"one/songs", "two/songs"} {
 		if err := os.MkdirAll(filepath.Join(root, sub), 0o755); err != nil {
@@ -84,15 +86,22 @@ func TestDatasetClash(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-	calls := 0
-	err := Scan(context.Background(), []Source{{Path: filepath.Join(root, "one/songs")}, {Path: filepath.Join(root, "two/songs")}},
-		DefaultOptions(), func(*Result) error { calls++; return nil })
-	if !errors.Is(err, ErrDatasetClash) || calls != 0 {
-		t.Fatalf("err %v after %d records, want ErrDatasetClash before any", err, calls)
+	type rec struct {
+		dataset, path string
+		status        Status
+		repeated      bool
 	}
-	err = Scan(context.Background(), []Source{{Path: filepath.Join(root, "one/songs"), Dataset: "one"}, {Path: filepath.Join(root, "two/songs")}},
-		DefaultOptions(), func(*Result) error { calls++; return nil })
-	if err != nil || calls != 2 {
-		t.Fatalf("named apart: err %v, %d records, want nil and 2", err, calls)
+	var got []rec
+	err := Scan(context.Background(), []Source{{Path: filepath.Join(root, "one/songs")}, {Path: filepath.Join(root, "two/songs")}},
+		DefaultOptions(), func(r *Result) error {
+			got = append(got, rec{r.Record.Dataset, r.Record.Path, r.Record.Status, errors.Is(r.Err, ErrRepeatedPath)})
+			return nil
+		})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []rec{{"songs", "a.mid", StatusOK, false}, {"songs", "a.mid (repeat 2)", StatusSkipped, true}}
+	if !slices.Equal(got, want) {
+		t.Errorf("records %+v, want %+v", got, want)
 	}
 }

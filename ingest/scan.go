@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"context"
+	"crypto/sha256"
 	"errors"
 	"fmt"
 	"runtime"
@@ -53,25 +54,17 @@ func DefaultOptions() Options {
 // one (of any earlier file); its kind is then the coarsest kind among its pieces.
 //
 // Bad files are reported in their records and the scan goes on, unless Strict. Scan
-// returns an error when a source does not exist or is of an unknown kind, or when two
-// sources have the same dataset name (ErrDatasetClash; all before anything is read), when yield returns one, when ctx ends, or under Strict.
+// returns an error when a source does not exist or is of an unknown kind (before
+// anything is read), when yield returns one, when ctx ends, or under Strict.
 func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Result) error) error {
 	opts = opts.withDefaults()
 	kinds := make([]sourceKind, len(sources))
-	first := make(map[string]string, len(sources)) // dataset name → the source that has it
 	for i, s := range sources {
 		k, err := s.kind()
 		if err != nil {
 			return err
 		}
 		kinds[i] = k
-		// Records and piece ids are keyed by dataset and path, so two sources of one
-		// name could give two inputs the same key.
-		name := s.DatasetName()
-		if prev, ok := first[name]; ok {
-			return fmt.Errorf("sources %s and %s are both dataset %q: name one with NAME=PATH: %w", prev, s.Path, name, ErrDatasetClash)
-		}
-		first[name] = s.Path
 	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
@@ -153,6 +146,7 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 	}()
 
 	d := newDeduper(opts.KeepDuplicates)
+	names := recordNames{}
 	pending := map[int]*Result{}
 	next := 0
 	var stopErr error
@@ -168,6 +162,7 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 			}
 			delete(pending, next)
 			next++
+			names.check(r)
 			d.check(r)
 			err := yield(r)
 			<-inFlight // only now, so a slow yield holds the pipeline back
@@ -197,6 +192,40 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 		return fmt.Errorf("internal error: %d results left unordered at %d", len(pending), next)
 	}
 	return nil
+}
+
+// recordNames keeps every record's name unique. Records and piece ids are keyed by
+// dataset and path, and two inputs can meet under one key: two entries of one name in
+// an archive, or two sources of one dataset name holding the same relative path. The
+// later input keeps a record of its own, skipped with ErrRepeatedPath under the name
+// "PATH (repeat N)", so every input is still accounted for and no key is given twice.
+// A key is kept as 16 bytes of its SHA-256, so memory stays small per input file.
+type recordNames map[[16]byte]int
+
+func (n recordNames) check(r *Result) {
+	rec := &r.Record
+	key := func(path string) [16]byte {
+		sum := sha256.Sum256([]byte(rec.Dataset + "\x00" + path))
+		return [16]byte(sum[:16])
+	}
+	k := key(rec.Path)
+	count := n[k]
+	n[k] = count + 1
+	if count == 0 {
+		return
+	}
+	orig := rec.Path
+	for {
+		count++
+		rec.Path = fmt.Sprintf("%s (repeat %d)", orig, count)
+		if n[key(rec.Path)] == 0 {
+			break
+		}
+	}
+	n[key(rec.Path)] = 1
+	r.Err = fmt.Errorf("%s: %s/%s: %w", rec.Path, rec.Dataset, orig, ErrRepeatedPath)
+	rec.Status, rec.Reason, rec.DuplicateOf, rec.DuplicateKind, rec.Pieces, rec.Notes = StatusSkipped, r.Err.Error(), "", "", 0, 0
+	r.Pieces = nil
 }
 
 // scanProcessedHook, when set (by tests), is called after each file is processed.
