@@ -13,12 +13,12 @@ import (
 
 // datasetWriter cuts a stream of rows, given in a deterministic order, into
 // shards per split, and the shards into row groups. Each shard is encoded on its
-// own goroutine while its rows arrive: a full row group is handed over and
-// compressed while the next one fills, so encoding overlaps the work upstream and
-// the splits are encoded in parallel. Where shards and row groups are cut depends
-// only on the rows before them, never on timing, so the files are the same for
-// every worker count. Memory is bounded by about two row groups per open shard
-// (one filling, one being encoded), whatever the shard size and the corpus size.
+// own goroutine while its rows arrive, in batches of writeBatch rows, so encoding
+// and compression overlap the work upstream and the splits are encoded in
+// parallel. Where shards, row groups and batches are cut depends only on the rows
+// before them, never on timing, so the files are the same for every worker count.
+// Memory is bounded by a few batches of rows plus the compressed pages of one row
+// group per open shard, whatever the shard size and the corpus size.
 type datasetWriter struct {
 	dir     string
 	part    Part
@@ -44,13 +44,20 @@ type numbered struct {
 }
 
 // splitStream is the open shard of one split, as seen by the goroutine calling add.
+// rowBatch is up to writeBatch rows of a shard, counted from the start of their
+// row group; end closes the group.
+type rowBatch struct {
+	rows []Row
+	end  bool
+}
+
 type splitStream struct {
-	seq        int        // number of the next shard
-	groups     chan []Row // to the open shard's encoder; nil when none is open
-	group      []Row      // the row group being filled
-	groupBytes int64
-	rows       int64 // rows of the open shard
-	bytes      int64 // payload of the open shard
+	seq        int           // number of the next shard
+	batches    chan rowBatch // to the open shard's encoder; nil when none is open
+	batch      []Row         // rows not yet handed over
+	groupBytes int64         // payload of the open row group
+	rows       int64         // rows of the open shard
+	bytes      int64         // payload of the open shard
 }
 
 func newDatasetWriter(ctx context.Context, dir string, part Part, s Settings, opt ShardOptions, workers int, onShard func(Shard)) *datasetWriter {
@@ -69,28 +76,28 @@ func newDatasetWriter(ctx context.Context, dir string, part Part, s Settings, op
 }
 
 // add appends one row (taking ownership of its slices) to its split's open
-// shard, hands the row group to the shard's encoder when it is full, and closes
-// the shard when it is full. It blocks while the encoder is busy with the
-// previous row group.
+// shard, hands a batch of rows to the shard's encoder when it is full or ends a
+// row group, and closes the shard when it is full. It blocks while the encoder
+// is busy.
 func (w *datasetWriter) add(r Row) error {
 	s := w.streams[r.Split]
 	if s == nil {
 		s = &splitStream{}
 		w.streams[r.Split] = s
 	}
-	if s.groups == nil {
+	if s.batches == nil {
 		if err := w.open(r.Split, s); err != nil {
 			return err
 		}
 	}
 	n := r.payloadBytes()
-	s.group = append(s.group, r)
+	s.batch = append(s.batch, r)
 	s.groupBytes += n
 	s.rows++
 	s.bytes += n
 	full := (w.rows > 0 && s.rows >= w.rows) || (w.rows == 0 && s.bytes >= w.bytes)
-	if full || s.groupBytes >= w.group {
-		if err := w.send(s); err != nil {
+	if end := full || s.groupBytes >= w.group; end || len(s.batch) == writeBatch {
+		if err := w.send(s, end); err != nil {
 			return err
 		}
 	}
@@ -119,13 +126,13 @@ func (w *datasetWriter) open(split string, s *splitStream) error {
 	seq := s.seq
 	s.seq++
 	rel := shardName(split, w.part, seq)
-	groups := make(chan []Row)
-	s.groups = groups
+	batches := make(chan rowBatch, 2)
+	s.batches = batches
 	opt := w.opt
 	opt.Metadata = withSplit(opt.Metadata, split)
 	w.g.Go(func() error {
 		defer func() { <-w.slots }()
-		sh, reused, err := w.encode(rel, split, groups, opt)
+		sh, reused, err := w.encode(rel, split, batches, opt)
 		if err != nil {
 			return err
 		}
@@ -143,34 +150,37 @@ func (w *datasetWriter) open(split string, s *splitStream) error {
 	return nil
 }
 
-// send hands the filled row group to the open shard's encoder.
-func (w *datasetWriter) send(s *splitStream) error {
-	if len(s.group) == 0 {
-		return nil
+// send hands the rows not yet handed over to the open shard's encoder; end
+// closes their row group.
+func (w *datasetWriter) send(s *splitStream, end bool) error {
+	if len(s.batch) == 0 && (!end || s.groupBytes == 0) {
+		return nil // nothing since the last batch, or the group already ended
 	}
 	select {
-	case s.groups <- s.group:
+	case s.batches <- rowBatch{s.batch, end}:
 	case <-w.ctx.Done():
 		return w.failed()
 	}
-	s.group = make([]Row, 0, cap(s.group))
-	s.groupBytes = 0
+	s.batch = make([]Row, 0, writeBatch)
+	if end {
+		s.groupBytes = 0
+	}
 	return nil
 }
 
 // closeShard ends the open shard: its encoder writes the footer and commits it.
 func (w *datasetWriter) closeShard(s *splitStream) {
-	close(s.groups)
-	s.groups = nil
+	close(s.batches)
+	s.batches = nil
 	s.rows, s.bytes = 0, 0
 }
 
-// encode writes the row groups received on groups as the shard rel, and commits
-// it when groups is closed. When the interrupted run of the same config completed
+// encode writes the batches of rows received as the shard rel, and commits it
+// when batches is closed. When the interrupted run of the same config completed
 // the same shard (same bytes, file intact), the file on disk is kept instead and
 // reused is true: shard bytes follow from their rows and options alone, so equal
 // bytes mean equal contents.
-func (w *datasetWriter) encode(rel, split string, groups <-chan []Row, opt ShardOptions) (sh Shard, reused bool, err error) {
+func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt ShardOptions) (sh Shard, reused bool, err error) {
 	p := filepath.Join(w.dir, filepath.FromSlash(rel))
 	sh = Shard{Path: rel, Split: split}
 	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
@@ -191,24 +201,29 @@ func (w *datasetWriter) encode(rel, split string, groups <-chan []Row, opt Shard
 		return sh, false, err
 	}
 	for {
-		var rows []Row
+		var b rowBatch
 		var ok bool
 		select {
-		case rows, ok = <-groups:
+		case b, ok = <-batches:
 		case <-w.ctx.Done():
 			return sh, false, w.ctx.Err()
 		}
 		if !ok {
 			break
 		}
-		for i := range rows {
-			sh.Tokens += int64(len(rows[i].Tokens))
+		for i := range b.rows {
+			sh.Tokens += int64(len(b.rows[i].Tokens))
 		}
-		if err := enc.writeGroup(rows); err != nil {
-			return sh, false, fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(rows))-1, err)
+		if err := enc.write(b.rows); err != nil {
+			return sh, false, fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(b.rows))-1, err)
 		}
-		sh.Rows += int64(len(rows))
-		clear(rows) // the encoder holds copies; let the rows' slices go
+		sh.Rows += int64(len(b.rows))
+		clear(b.rows) // the writer holds copies; let the rows' slices go
+		if b.end {
+			if err := enc.flush(); err != nil {
+				return sh, false, fmt.Errorf("write shard %s: %w", rel, err)
+			}
+		}
 	}
 	if err := enc.close(); err != nil {
 		return sh, false, fmt.Errorf("write shard %s: %w", rel, err)
@@ -239,10 +254,10 @@ func (w *datasetWriter) encode(rel, split string, groups <-chan []Row, opt Shard
 func (w *datasetWriter) finish() ([]Shard, error) {
 	for _, split := range Splits {
 		s := w.streams[split]
-		if s == nil || s.groups == nil {
+		if s == nil || s.batches == nil {
 			continue
 		}
-		if err := w.send(s); err != nil {
+		if err := w.send(s, true); err != nil {
 			break
 		}
 		w.closeShard(s)

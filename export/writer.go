@@ -173,19 +173,33 @@ func encodeShard(w io.Writer, rows []Row, opt ShardOptions, release bool) error 
 	start := 0
 	for i := range rows {
 		group += rows[i].payloadBytes()
-		if group < groupBytes && i+1 < len(rows) {
+		end := group >= groupBytes || i+1 == len(rows)
+		if !end && i+1-start < writeBatch {
 			continue
 		}
-		if err := enc.writeGroup(rows[start : i+1]); err != nil {
+		if err := enc.write(rows[start : i+1]); err != nil {
 			return fmt.Errorf("rows %d-%d: %w", start, i, err)
 		}
 		if release {
 			clear(rows[start : i+1])
 		}
-		start, group = i+1, 0
+		if end {
+			if err := enc.flush(); err != nil {
+				return err
+			}
+			group = 0
+		}
+		start = i + 1
 	}
 	return enc.close()
 }
+
+// writeBatch is the most rows handed to the Parquet writer at once. The writer
+// cuts each Write into runs of 64 rows and decides page boundaries after each
+// run, so rows written in batches of 64 from the start of their row group give
+// the same pages, byte for byte, as the whole group in one Write, while only a
+// batch needs to be held as Rows.
+const writeBatch = 64
 
 // rowGroupBytes is the row-group target in effect.
 func (opt ShardOptions) rowGroupBytes() int64 {
@@ -195,10 +209,11 @@ func (opt ShardOptions) rowGroupBytes() int64 {
 	return opt.RowGroupBytes
 }
 
-// shardEncoder writes one Parquet file a row group at a time, so that a shard
-// never needs more than one row group of rows in memory. A group is written with
-// a single Write, then flushed: page boundaries follow the rows given to one
-// Write, so the same groups give the same bytes however they were collected.
+// shardEncoder writes one Parquet file a batch of rows at a time, so that a
+// shard never needs more than a batch of rows in memory (the writer keeps the
+// compressed pages of the open row group). Page boundaries follow the rows given
+// to each Write (see writeBatch), so the same batches give the same bytes however
+// the rows were collected.
 type shardEncoder struct {
 	pw *parquet.GenericWriter[Row]
 }
@@ -230,11 +245,19 @@ func newShardEncoder(w io.Writer, opt ShardOptions) (*shardEncoder, error) {
 	return &shardEncoder{pw: parquet.NewGenericWriter[Row](w, options...)}, nil
 }
 
-// writeGroup encodes rows as one row group; the rows may be reused afterwards.
-func (e *shardEncoder) writeGroup(rows []Row) error {
+// write encodes rows into the open row group; the rows may be reused afterwards.
+func (e *shardEncoder) write(rows []Row) error {
+	if len(rows) == 0 {
+		return nil
+	}
 	if _, err := e.pw.Write(rows); err != nil {
 		return fmt.Errorf("encode rows: %w", err)
 	}
+	return nil
+}
+
+// flush ends the open row group.
+func (e *shardEncoder) flush() error {
 	if err := e.pw.Flush(); err != nil {
 		return fmt.Errorf("flush row group: %w", err)
 	}
