@@ -31,9 +31,10 @@ type datasetWriter struct {
 	cancel  context.CancelFunc
 	slots   chan struct{} // bounds the shards open or finishing at once
 	streams map[string]*splitStream
-	onShard func(Shard) // called after each shard is written, serialized
-	onReuse func()      // called after each shard kept from an interrupted run, serialized
-	journal *journal    // nil: every shard is written
+	onShard func(Shard)   // called after each shard is written, serialized
+	onReuse func()        // called after each shard kept from an interrupted run, serialized
+	journal *journal      // nil: every shard is written
+	cpu     chan struct{} // nil, or tokens shared with the stages upstream (see outputSpec)
 	mu      sync.Mutex
 	shards  []numbered
 }
@@ -214,18 +215,30 @@ func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt S
 		for i := range b.rows {
 			sh.Tokens += int64(len(b.rows[i].Tokens))
 		}
-		if err := enc.write(b.rows); err != nil {
-			return sh, false, fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(b.rows))-1, err)
+		if err := acquire(w.ctx, w.cpu); err != nil {
+			return sh, false, err
+		}
+		err := enc.write(b.rows)
+		if err != nil {
+			err = fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(b.rows))-1, err)
+		} else if b.end {
+			if err = enc.flush(); err != nil {
+				err = fmt.Errorf("write shard %s: %w", rel, err)
+			}
+		}
+		release(w.cpu)
+		if err != nil {
+			return sh, false, err
 		}
 		sh.Rows += int64(len(b.rows))
 		clear(b.rows) // the writer holds copies; let the rows' slices go
-		if b.end {
-			if err := enc.flush(); err != nil {
-				return sh, false, fmt.Errorf("write shard %s: %w", rel, err)
-			}
-		}
 	}
-	if err := enc.close(); err != nil {
+	if err := acquire(w.ctx, w.cpu); err != nil {
+		return sh, false, err
+	}
+	err = enc.close()
+	release(w.cpu)
+	if err != nil {
 		return sh, false, fmt.Errorf("write shard %s: %w", rel, err)
 	}
 	if w.journal != nil {
@@ -289,6 +302,26 @@ func (w *datasetWriter) finish() ([]Shard, error) {
 func (w *datasetWriter) abort() {
 	w.cancel()
 	_ = w.g.Wait()
+}
+
+// acquire takes a token from cpu (nil: no bound), or returns when ctx ends.
+func acquire(ctx context.Context, cpu chan struct{}) error {
+	if cpu == nil {
+		return nil
+	}
+	select {
+	case cpu <- struct{}{}:
+		return nil
+	case <-ctx.Done():
+		return ctx.Err()
+	}
+}
+
+// release returns a token taken by acquire.
+func release(cpu chan struct{}) {
+	if cpu != nil {
+		<-cpu
+	}
 }
 
 func withSplit(meta map[string]string, split string) map[string]string {

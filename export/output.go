@@ -28,6 +28,10 @@ type outputSpec struct {
 	buckets     json.RawMessage
 	onShard     func(Shard)
 	onReuse     func()
+	// cpu, when set, is shared with the stages upstream: a shard encoder holds
+	// a token while it encodes a batch, so that the run as a whole keeps about
+	// workers cores busy, not workers plus one per open shard.
+	cpu chan struct{}
 }
 
 // fileResult is what the pipeline hands the output stage for one input file, in
@@ -71,7 +75,7 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 		},
 	}
 	dw := newDatasetWriter(ctx, sp.dir, sp.part, sp.cfg.Shards, opt, sp.workers, sp.onShard)
-	dw.journal, dw.onReuse = jr, sp.onReuse
+	dw.journal, dw.onReuse, dw.cpu = jr, sp.onReuse, sp.cpu
 	var files []FileEntry
 	splitPieces := map[string]int64{}
 	err = feed(func(fr fileResult) error {

@@ -115,11 +115,12 @@ func Run(ctx context.Context, sources []ingest.Source, cfg Config, opt Options) 
 		vocabulary: vocab, buckets: buckets,
 		onShard: func(Shard) { report(func(p *Progress) { p.Shards++ }) },
 		onReuse: func() { report(func(p *Progress) { p.Reused++ }) },
+		cpu:     make(chan struct{}, workers),
 	}
 	iopt := cfg.Input.Options()
 	iopt.Workers = workers
 	iopt.KeepDuplicates = cfg.Shards.KeepDuplicates
-	p := &pipeline{cfg: cfg, part: opt.Part, workers: workers, cov: cov}
+	p := &pipeline{cfg: cfg, part: opt.Part, workers: workers, cov: cov, cpu: sp.cpu}
 	feed := func(emit func(fileResult) error) error {
 		return p.run(ctx, sources, iopt, func(fr fileResult) error {
 			if err := emit(fr); err != nil {
@@ -139,6 +140,7 @@ type pipeline struct {
 	part    Part
 	workers int
 	cov     *coverage
+	cpu     chan struct{} // tokens shared with the shard encoders (see outputSpec)
 }
 
 func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest.Options, emit func(fileResult) error) error {
@@ -190,7 +192,11 @@ func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest
 			}
 			defer p.cov.done(cw)
 			for j := range jobs {
+				if err := acquire(gctx, p.cpu); err != nil {
+					return err
+				}
 				fr, err := p.process(enc, cw, j.r)
+				release(p.cpu)
 				if err != nil {
 					return err
 				}
