@@ -204,6 +204,9 @@ type recordNames map[[16]byte]int
 
 func (n recordNames) check(r *Result) {
 	rec := &r.Record
+	if rec.Path == "" {
+		return // a record of a whole source (a damaged archive): named by its source, no pieces
+	}
 	key := func(path string) [16]byte {
 		sum := sha256.Sum256([]byte(rec.Dataset + "\x00" + path))
 		return [16]byte(sum[:16])
