@@ -27,7 +27,9 @@ const (
 )
 
 // codecs are shared: parquet-go codecs pool their encoders and are safe for
-// concurrent use.
+// concurrent use. Zstandard stays at its default level: the fastest level
+// compressed about twice as fast for shards about 4 % larger, but its encoders
+// held about twice the heap (see the contributor guide's profile notes).
 var codecs = map[string]compress.Codec{
 	CompressionZstd:   &zstd.Codec{Level: zstd.DefaultLevel},
 	CompressionSnappy: &snappy.Codec{},
