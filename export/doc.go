@@ -26,8 +26,9 @@
 // in .relshard-journal.jsonl while a run is unfinished). Verify reads a dataset
 // back and lists its problems.
 //
-// Memory is bounded by the shard size target: one open shard per split plus one
-// shard per writing worker, and a few input files per worker.
+// Memory does not depend on the shard size or the corpus size: each open shard
+// is encoded while its rows arrive, a batch of rows and the compressed pages of
+// one row group at a time, plus a few input files per worker.
 //
 //	m, err := export.Run(ctx, []ingest.Source{{Path: "midi/"}}, export.DefaultConfig(),
 //		export.Options{Out: "shards/", ToolVersion: "v1"})

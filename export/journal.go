@@ -12,8 +12,8 @@ import (
 )
 
 // JournalName is the file in which a run lists each shard as it completes, so
-// that a rerun after a crash keeps the shards already written instead of encoding
-// them again. It exists only while a run is unfinished.
+// that a rerun after a crash keeps the shards already written instead of writing
+// and syncing them again. It exists only while a run is unfinished.
 const JournalName = ".relshard-journal.jsonl"
 
 // journalEntry is one line of the journal: a shard and the digest of its bytes

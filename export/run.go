@@ -19,8 +19,10 @@ import (
 type Options struct {
 	// Out is the dataset folder.
 	Out string
-	// Workers bounds the files parsed, the pieces encoded and the shards written at
-	// once; 0 means runtime.NumCPU(). The output is the same for every value.
+	// Workers bounds the files parsed at once, and the files encoded plus the shard
+	// batches compressed at once (they share Workers tokens), so a run keeps about
+	// Workers cores busy; 0 means runtime.NumCPU(). The output is the same for
+	// every value.
 	Workers int
 	// Part selects a deterministic slice of the pieces (by content hash); the zero
 	// Part is the whole corpus. A part run writes shards named for its part and a
@@ -55,10 +57,9 @@ type Progress struct {
 // Run is crash-safe and idempotent: shards and manifest appear only complete, under
 // their final names; running again with the same config finishes an interrupted run
 // and gives byte-identical files, whatever the worker count. The rerun reads and
-// encodes the corpus again (shard contents depend on everything before them) but
-// keeps each shard the interrupted run completed, when its rows and options are
-// unchanged and its file is intact (see JournalName), instead of compressing and
-// writing it again.
+// encodes the corpus again (shard contents depend on everything before them) and
+// keeps each shard the interrupted run completed, when it encodes to the same
+// bytes and its file is intact (see JournalName), instead of writing it again.
 func Run(ctx context.Context, sources []ingest.Source, cfg Config, opt Options) (*Manifest, error) {
 	cfg = cfg.Resolved()
 	if err := cfg.Validate(); err != nil {
