@@ -3,6 +3,7 @@ package ingest
 import (
 	"context"
 	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"runtime"
@@ -365,12 +366,29 @@ func skip(r *Result, err error) *Result {
 
 // deduper finds duplicates in delivery order: the first file holding a hash owns it.
 type deduper struct {
-	keep                     bool
-	exact, musical, transpos map[string]string // hash -> "dataset/path"
+	keep bool
+	// The hash indexes map a hash (its first 16 bytes) to the first kept file that has
+	// it, as an index into names: kept per input file for the whole run, so compact.
+	exact, musical, transpos map[dupKey]int32
+	names                    []string // "dataset/path" of the files the indexes point at
+}
+
+// dupKey is the first 16 bytes of a hex SHA-256 (or of the SHA-256 of any other key).
+type dupKey [16]byte
+
+func keyOf(hexHash string) dupKey {
+	var k dupKey
+	if len(hexHash) >= 2*len(k) {
+		if _, err := hex.Decode(k[:], []byte(hexHash[:2*len(k)])); err == nil {
+			return k
+		}
+	}
+	sum := sha256.Sum256([]byte(hexHash))
+	return dupKey(sum[:len(k)])
 }
 
 func newDeduper(keep bool) *deduper {
-	return &deduper{keep: keep, exact: map[string]string{}, musical: map[string]string{}, transpos: map[string]string{}}
+	return &deduper{keep: keep, exact: map[dupKey]int32{}, musical: map[dupKey]int32{}, transpos: map[dupKey]int32{}}
 }
 
 // kindRank orders duplicate kinds from finest to coarsest.
@@ -381,13 +399,15 @@ func (d *deduper) check(r *Result) {
 	if rec.Status != StatusOK {
 		return
 	}
-	key := rec.Key()
-	if first, ok := d.exact[rec.SHA256]; ok {
-		d.mark(r, first, DupExact)
+	exact := keyOf(rec.SHA256)
+	if first, ok := d.exact[exact]; ok {
+		d.mark(r, d.names[first], DupExact)
 		return
 	}
-	d.exact[rec.SHA256] = key
-	var of string
+	self := int32(len(d.names))
+	d.names = append(d.names, rec.Key())
+	d.exact[exact] = self
+	of := int32(-1)
 	var kind DuplicateKind
 	all, any := true, false
 	for i := range r.Pieces {
@@ -397,16 +417,16 @@ func (d *deduper) check(r *Result) {
 		}
 		any = true
 		k := DupMusical
-		first, ok := d.musical[p.MusicalHash]
+		first, ok := d.musical[keyOf(p.MusicalHash)]
 		if !ok {
 			k = DupTransposed
-			first, ok = d.transpos[p.TransposedHash]
+			first, ok = d.transpos[keyOf(p.TransposedHash)]
 		}
 		if !ok {
 			all = false
 			continue
 		}
-		if of == "" {
+		if of < 0 {
 			of = first
 		}
 		if kind == "" || kindRank[k] > kindRank[kind] {
@@ -418,16 +438,21 @@ func (d *deduper) check(r *Result) {
 		if len(p.Notes) == 0 {
 			continue
 		}
-		if _, ok := d.musical[p.MusicalHash]; !ok {
-			d.musical[p.MusicalHash] = key
+		if k := keyOf(p.MusicalHash); !hasKey(d.musical, k) {
+			d.musical[k] = self
 		}
-		if _, ok := d.transpos[p.TransposedHash]; !ok {
-			d.transpos[p.TransposedHash] = key
+		if k := keyOf(p.TransposedHash); !hasKey(d.transpos, k) {
+			d.transpos[k] = self
 		}
 	}
 	if any && all {
-		d.mark(r, of, kind)
+		d.mark(r, d.names[of], kind)
 	}
+}
+
+func hasKey(m map[dupKey]int32, k dupKey) bool {
+	_, ok := m[k]
+	return ok
 }
 
 func (d *deduper) mark(r *Result, of string, kind DuplicateKind) {
