@@ -313,21 +313,30 @@ func pairCount(n int64, m Mode) int64 {
 	return n * n
 }
 
+// begin checks a window for Count (sampled false) or Sample and counts it and its
+// tokens in t; it returns the number of tokens.
+func (t *Tally) begin(tokens []tokenize.Token, sampled bool) (int64, error) {
+	if t.sampled != sampled {
+		if sampled {
+			return 0, fmt.Errorf("relpos: Sample on an exact tally; use Count")
+		}
+		return 0, fmt.Errorf("relpos: Count on a sampling tally; use Sample")
+	}
+	if err := checkWindow(tokens); err != nil {
+		return 0, err
+	}
+	t.Windows++
+	t.Tokens += int64(len(tokens))
+	return int64(len(tokens)), nil
+}
+
 // Count adds the pairs of one window to t, exactly. It errors, without counting, on a
 // window that breaks the tokenize.Token contract (times decreasing, pitch or
 // instrument out of range). With sampling configured, use Sample instead.
 func (c *Counter) Count(t *Tally, tokens []tokenize.Token) error {
-	if t.sampled {
-		return fmt.Errorf("relpos: Count on a sampling tally; use Sample")
-	}
-	if err := checkWindow(tokens); err != nil {
+	n, err := t.begin(tokens, false)
+	if err != nil || n == 0 {
 		return err
-	}
-	t.Windows++
-	t.Tokens += int64(len(tokens))
-	n := int64(len(tokens))
-	if n == 0 {
-		return nil
 	}
 	mode := c.cfg.Pairs
 	all := &t.all

@@ -1,7 +1,6 @@
 package relpos
 
 import (
-	"fmt"
 	"math"
 	"math/rand/v2"
 	"sort"
@@ -18,17 +17,9 @@ import (
 // O(L·C), so sampling pays where exact costs O(L²) — the joint table — or for rates
 // below about C/L.
 func (c *Counter) Sample(t *Tally, tokens []tokenize.Token, key uint64) error {
-	if !t.sampled {
-		return fmt.Errorf("relpos: Sample on an exact tally; use Count")
-	}
-	if err := checkWindow(tokens); err != nil {
+	n, err := t.begin(tokens, true)
+	if err != nil || n == 0 {
 		return err
-	}
-	t.Windows++
-	t.Tokens += int64(len(tokens))
-	n := int64(len(tokens))
-	if n == 0 {
-		return nil
 	}
 	q := c.cfg.Sample
 	rng := rand.New(rand.NewPCG(c.cfg.Seed, key))

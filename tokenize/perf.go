@@ -42,13 +42,8 @@ const smallSort = 24
 // Notes come from ingest sorted by onset, so the encoder streams over them one onset
 // group at a time; a piece out of onset order is sorted first.
 func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
-	var st Stats
-	st.Notes = len(p.Notes)
-	voc := e.vocab
-	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
-		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	d := put(dst, BeginID, 0, 0, -1, -1)
-	q := quantizer{scale: 1000 * v.Stretch / float64(e.cfg.ShiftMS), transpose: v.Transpose, lastStart: math.NaN()}
+	st := Stats{Notes: len(p.Notes)}
+	o, d, q := e.startPerformance(v, dst)
 	// The next note is quantized straight into the slot after the group, so it is
 	// never copied: a note of the next onset then moves to the group's start.
 	group := e.pnotes[:0]
@@ -81,15 +76,20 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	return e.finishPerformance(&o, d, group, &st)
 }
 
-// encodePerformanceUnsorted encodes a piece whose notes are not in onset order.
-func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
-	var st Stats
-	st.Notes = len(p.Notes)
+// startPerformance returns the output state, the stream with its begin token, and
+// the quantizer of one performance encoding of variant v.
+func (e *Encoder) startPerformance(v Variant, dst []Token) (perfOut, []Token, quantizer) {
 	voc := e.vocab
 	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
 		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	d := put(dst, BeginID, 0, 0, -1, -1)
 	q := quantizer{scale: 1000 * v.Stretch / float64(e.cfg.ShiftMS), transpose: v.Transpose, lastStart: math.NaN()}
+	return o, put(dst, BeginID, 0, 0, -1, -1), q
+}
+
+// encodePerformanceUnsorted encodes a piece whose notes are not in onset order.
+func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []Token) ([]Token, Stats, error) {
+	st := Stats{Notes: len(p.Notes)}
+	o, d, q := e.startPerformance(v, dst)
 	notes := e.pnotes[:0]
 	for i := range p.Notes {
 		notes = append(notes, pnote{})
