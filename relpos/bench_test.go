@@ -44,24 +44,7 @@ func benchConfig() Config {
 // BenchmarkCountFast and BenchmarkCountNaive count the same L = 2048 window with the
 // same config (64-bucket schemes, instrument breakdown on); their ns/op ratio is the
 // speed-up of the exact O(L·C) counting over enumerating the pairs.
-func BenchmarkCountFast(b *testing.B) {
-	c, err := NewCounter(benchConfig())
-	if err != nil {
-		b.Fatal(err)
-	}
-	tokens := benchWindow(2048)
-	tally := c.NewTally()
-	if err := c.Count(tally, tokens); err != nil { // grow the scratch buffers once
-		b.Fatal(err)
-	}
-	b.ReportAllocs()
-	b.SetBytes(int64(len(tokens)))
-	for b.Loop() {
-		if err := c.Count(tally, tokens); err != nil {
-			b.Fatal(err)
-		}
-	}
-}
+func BenchmarkCountFast(b *testing.B) { benchCount(b, benchConfig(), benchWindow(2048)) }
 
 func BenchmarkCountNaive(b *testing.B) {
 	c, err := NewCounter(benchConfig())
@@ -114,44 +97,13 @@ func BenchmarkReport(b *testing.B) {
 func BenchmarkCountJoint(b *testing.B) {
 	cfg := benchConfig()
 	cfg.Joint = true
-	c, err := NewCounter(cfg)
-	if err != nil {
-		b.Fatal(err)
-	}
-	tokens := benchWindow(2048)
-	tally := c.NewTally()
-	if err := c.Count(tally, tokens); err != nil {
-		b.Fatal(err)
-	}
-	b.ReportAllocs()
-	for b.Loop() {
-		if err := c.Count(tally, tokens); err != nil {
-			b.Fatal(err)
-		}
-	}
+	benchCount(b, cfg, benchWindow(2048))
 }
 
 // BenchmarkCountDefault counts an L = 2048 performance-encoding-like window with
 // DefaultConfig (distance linear clip 64 and log 32/128, time log 32/2048, pitch linear
 // clip 24, instrument breakdown on, causal): the counting that export does per window.
-func BenchmarkCountDefault(b *testing.B) {
-	c, err := NewCounter(DefaultConfig())
-	if err != nil {
-		b.Fatal(err)
-	}
-	tokens := benchWindow(2048)
-	tally := c.NewTally()
-	if err := c.Count(tally, tokens); err != nil { // grow the scratch buffers once
-		b.Fatal(err)
-	}
-	b.ReportAllocs()
-	b.SetBytes(int64(len(tokens)))
-	for b.Loop() {
-		if err := c.Count(tally, tokens); err != nil {
-			b.Fatal(err)
-		}
-	}
-}
+func BenchmarkCountDefault(b *testing.B) { benchCount(b, DefaultConfig(), benchWindow(2048)) }
 
 // perfWindow is a window of n tokens as the performance encoding writes them with its
 // default of dropping drums: a quarter time shifts of 10 to 500 ms, one token in ten a
@@ -178,12 +130,15 @@ func perfWindow(n int) []tokenize.Token {
 
 // BenchmarkCountDefaultNoDrums is BenchmarkCountDefault on a window without drums, what
 // export counts with the default token settings.
-func BenchmarkCountDefaultNoDrums(b *testing.B) {
-	c, err := NewCounter(DefaultConfig())
+func BenchmarkCountDefaultNoDrums(b *testing.B) { benchCount(b, DefaultConfig(), perfWindow(2048)) }
+
+// benchCount times exact counting of one window with cfg, after one count that grows
+// the counter's scratch buffers, so allocations per op show any per-window allocation.
+func benchCount(b *testing.B, cfg Config, tokens []tokenize.Token) {
+	c, err := NewCounter(cfg)
 	if err != nil {
 		b.Fatal(err)
 	}
-	tokens := perfWindow(2048)
 	tally := c.NewTally()
 	if err := c.Count(tally, tokens); err != nil {
 		b.Fatal(err)
