@@ -197,10 +197,14 @@ func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt S
 			sf.discard()
 		}
 	}()
+	if opt.SpillDir == "" {
+		opt.SpillDir = filepath.Dir(p)
+	}
 	enc, err := newShardEncoder(sf, opt)
 	if err != nil {
 		return sh, false, err
 	}
+	defer enc.release()
 	for {
 		var b rowBatch
 		var ok bool

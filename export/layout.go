@@ -207,7 +207,7 @@ func removeTemps(dir string) error {
 				continue
 			}
 			base := strings.TrimSuffix(n, TempSuffix)
-			if shardPattern.MatchString(base) || (d == "" && (base == ManifestName || base == MarkerName || base == JournalName)) {
+			if shardPattern.MatchString(base) || isSpillName(base) || (d == "" && (base == ManifestName || base == MarkerName || base == JournalName)) {
 				if err := os.Remove(filepath.Join(dir, d, n)); err != nil {
 					return fmt.Errorf("remove leftover temporary file: %w", err)
 				}

@@ -1,9 +1,11 @@
 package export
 
 import (
+	"bufio"
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 )
@@ -118,12 +120,25 @@ func (m *Manifest) Encode() ([]byte, error) {
 // writeFileAtomic writes data to a temporary name beside path, syncs it and
 // renames it into place.
 func writeFileAtomic(path string, data []byte) error {
+	return writeFileAtomicFunc(path, func(w io.Writer) error {
+		_, err := w.Write(data)
+		return err
+	})
+}
+
+// writeFileAtomicFunc is writeFileAtomic for contents that write streams, through
+// a buffer.
+func writeFileAtomicFunc(path string, write func(io.Writer) error) error {
 	tmp := path + TempSuffix
 	f, err := os.OpenFile(tmp, os.O_CREATE|os.O_TRUNC|os.O_WRONLY, 0o644)
 	if err != nil {
 		return err
 	}
-	_, err = f.Write(data)
+	bw := bufio.NewWriterSize(f, 64<<10)
+	err = write(bw)
+	if err == nil {
+		err = bw.Flush()
+	}
 	if err == nil {
 		err = f.Sync()
 	}
@@ -170,17 +185,10 @@ func (m *Manifest) recount(splitPieces map[string]int64) {
 		t.Bytes += sh.Bytes
 		t.Shards++
 	}
+	var ft fileTally
 	for _, f := range m.Files {
-		t.Files++
-		t.Pieces += f.Pieces
-		switch f.Status {
-		case "ok":
-			t.FilesOK++
-		case "skipped":
-			t.FilesSkipped++
-		case "duplicate":
-			t.FilesDuplicate++
-		}
+		ft.add(f)
 	}
+	ft.addTo(&t)
 	m.Totals = t
 }

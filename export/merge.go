@@ -181,7 +181,7 @@ func Merge(ctx context.Context, partDirs []string, opt MergeOptions) (*Manifest,
 		m.Shards = []Shard{}
 	}
 	m.recount(splitPieces)
-	if err := commitManifest(opt.Out, m); err != nil {
+	if err := commitManifest(opt.Out, m, nil); err != nil {
 		return nil, err
 	}
 	return m, nil

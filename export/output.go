@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -76,10 +77,17 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 	}
 	dw := newDatasetWriter(ctx, sp.dir, sp.part, sp.cfg.Shards, opt, sp.workers, sp.onShard)
 	dw.journal, dw.onReuse, dw.cpu = jr, sp.onReuse, sp.cpu
-	var files []FileEntry
+	spool, err := newEntrySpool(sp.dir)
+	if err != nil {
+		dw.abort()
+		return nil, err
+	}
+	defer spool.close()
 	splitPieces := map[string]int64{}
 	err = feed(func(fr fileResult) error {
-		files = append(files, fr.entry)
+		if err := spool.add(fr.entry); err != nil {
+			return err
+		}
 		seen := map[string]bool{}
 		for _, r := range fr.rows {
 			if !seen[r.Piece] {
@@ -129,34 +137,43 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 		Coverage:      cov,
 		Licenses:      sp.licenses,
 		Shards:        shards,
-		Files:         files,
 	}
 	if m.Shards == nil {
 		m.Shards = []Shard{}
 	}
-	if m.Files == nil {
-		m.Files = []FileEntry{}
-	}
 	m.recount(splitPieces)
-	if err := commitManifest(sp.dir, m); err != nil {
+	spool.tally.addTo(&m.Totals)
+	if err := commitManifest(sp.dir, m, spool); err != nil {
+		return nil, err
+	}
+	// The entries come back only now that the shard writers are gone: the
+	// run's memory peaks while they work.
+	if m.Files, err = spool.entries(); err != nil {
 		return nil, err
 	}
 	return m, nil
 }
 
 // commitManifest makes the shards durable, writes the manifest (atomically, last)
-// and removes the run marker.
-func commitManifest(dir string, m *Manifest) error {
+// and removes the run marker. With spool, the manifest's files come from it.
+func commitManifest(dir string, m *Manifest, spool *entrySpool) error {
 	for _, s := range Splits {
 		if err := syncDir(filepath.Join(dir, s)); err != nil && !errors.Is(err, fs.ErrNotExist) {
 			return err
 		}
 	}
-	data, err := m.Encode()
-	if err != nil {
+	write := func(w io.Writer) error {
+		if spool != nil {
+			return m.encodeSpooled(w, spool)
+		}
+		data, err := m.Encode()
+		if err != nil {
+			return err
+		}
+		_, err = w.Write(data)
 		return err
 	}
-	if err := writeFileAtomic(filepath.Join(dir, ManifestName), data); err != nil {
+	if err := writeFileAtomicFunc(filepath.Join(dir, ManifestName), write); err != nil {
 		return fmt.Errorf("write manifest: %w", err)
 	}
 	if err := removeJournal(dir); err != nil {
