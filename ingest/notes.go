@@ -1,5 +1,10 @@
 package ingest
 
+import (
+	"math"
+	"math/bits"
+)
+
 // Note pairing. Notes are paired per (track, channel, pitch):
 //   - a note-on with velocity 0 is a note-off (SMF 1.0 / MIDI 1.0);
 //   - a note-on of a pitch that is still sounding ends the earlier note at that tick
@@ -188,6 +193,8 @@ func noteLess(a, b *rawNote) bool {
 // both children of the root. The heap holds each run's next start tick and the run
 // index packed in one word, which orders like (tick, run) with one comparison; ticks
 // of 2^47 and more (only damaged or contrived files reach them) take mergeRunsWide.
+// Parse uses it only where tickSorter.order declines: on real files, whose runs
+// interleave note by note, the heap moves about one note per sift.
 func mergeRuns(dst []Note, src []rawNote, bounds []int, em *emitter) {
 	nruns := len(bounds) - 1
 	if nruns > maxPackedRuns {
@@ -247,6 +254,245 @@ func mergeRuns(dst []Note, src []rawNote, bounds []int, em *emitter) {
 			out++
 		}
 	}
+}
+
+// tickSorter finds the order of a piece's notes. The notes of the run-ordered buffer
+// fall into groups, maximal stretches of one start tick (mostly chords of one
+// track); each group gets one key, its tick (less the smallest) above its index,
+// and the keys sorted give mergeRuns' order: by StartTick, and groups of one tick
+// from different runs in run order. Sorting groups rather than notes halves the keys
+// on real files.
+//
+// The sort scatters the keys into about as many buckets as there are notes by the
+// top bits of their tick (one counting pass, one scatter pass, as in an MSD radix
+// sort), then an insertion sort fixes the order inside each bucket. Music spreads
+// its notes over time, so buckets hold a few keys; when one holds more than
+// maxBucketKeys, a bottom-up merge of the per-run stretches of keys is used instead,
+// which is O(g log runs) for any input. The scratch slices are kept for the next
+// piece.
+type tickSorter struct {
+	keys, tmp []uint64
+	ends      []int32  // group g is src[ends[g]:ends[g+1]]
+	counts    []uint32 // per bucket
+	stretch   []int    // starts of the ascending stretches of keys, for the merge
+}
+
+const (
+	maxBucketBits = 16 // at most 65,536 buckets: their counts stay in L2
+	maxBucketKeys = 32 // bounds the insertion sort's work per key
+)
+
+// order returns the group keys of src, whose runs src[bounds[i]:bounds[i+1]] are
+// each sorted by StartTick, in merged order, the group ends and the number of index
+// bits under the tick. ok is false when tick range and index do not fit in one word
+// together (ticks of 2^40 and more in a big piece, only damaged or contrived files
+// reach them), or src is too long for int32 ends: use mergeRuns then.
+func (s *tickSorter) order(src []rawNote, bounds []int) (keys []uint64, ends []int32, idxBits uint, ok bool) {
+	n := len(src)
+	if n == 0 {
+		return nil, nil, 0, true
+	}
+	if n >= math.MaxInt32 {
+		return nil, nil, 0, false
+	}
+	lo, hi := int64(math.MaxInt64), int64(math.MinInt64)
+	for i := 0; i+1 < len(bounds); i++ {
+		if a, b := bounds[i], bounds[i+1]; a < b {
+			lo = min(lo, src[a].StartTick)
+			hi = max(hi, src[b-1].StartTick)
+		}
+	}
+	if lo < 0 {
+		return nil, nil, 0, false // never from the reader, whose ticks count up from 0
+	}
+	idxBits = uint(bits.Len(uint(n - 1)))
+	tickBits := uint(bits.Len64(uint64(hi - lo)))
+	if idxBits+tickBits > 64 {
+		return nil, nil, 0, false
+	}
+	if cap(s.keys) < n {
+		c := n + n/4
+		s.keys, s.tmp, s.ends = make([]uint64, c), make([]uint64, c), make([]int32, c+1)
+	}
+	// buckets: the top bits of the tick, about one bucket per note
+	bucketBits := min(tickBits, uint(bits.Len(uint(n)))-1, maxBucketBits)
+	nb := 1 << bucketBits
+	if cap(s.counts) < nb {
+		s.counts = make([]uint32, nb, 2*nb)
+	}
+	counts := s.counts[:nb]
+	clear(counts)
+	shift := tickBits - bucketBits
+	keys, ends = s.keys[:n], s.ends[:n+1]
+	src = src[:n]
+	// One pass finds the groups, builds their keys and counts the buckets. It is
+	// branch-free: every note writes its group's key and end and counts 0 or 1, the
+	// last write of a group stays.
+	g := 0
+	prev := ^uint64(0)
+	ends[0] = 0
+	for i := range src {
+		t := uint64(src[i].StartTick - lo)
+		next := boolInt(t != prev)
+		prev = t
+		g += next
+		keys[g-1] = t<<idxBits | uint64(g-1)
+		ends[g] = int32(i + 1)
+		counts[t>>shift&uint64(nb-1)] += uint32(next)
+	}
+	keys, ends = keys[:g], ends[:g+1]
+	if tickBits == 0 {
+		return keys, ends, idxBits, true // one start tick
+	}
+	// counts to starting offsets
+	sum, most := uint32(0), uint32(0)
+	for b, k := range counts {
+		counts[b] = sum
+		sum += k
+		most = max(most, k)
+	}
+	if most > maxBucketKeys {
+		return s.merge(keys), ends, idxBits, true
+	}
+	out := s.tmp[:g]
+	shift += idxBits
+	for _, k := range keys {
+		b := k >> shift & uint64(nb-1)
+		out[counts[b]] = k
+		counts[b]++
+	}
+	// insertion sort: keys are out of order only inside a bucket
+	for i := 1; i < len(out); i++ {
+		x := out[i]
+		if x > out[i-1] {
+			continue
+		}
+		j := i - 1
+		for j >= 0 && out[j] > x {
+			out[j+1] = out[j]
+			j--
+		}
+		out[j+1] = x
+	}
+	return out, ends, idxBits, true
+}
+
+// merge sorts keys, a few ascending stretches (one per run at most), by merging
+// neighbouring stretches pairwise until one is left. It returns keys or s.tmp.
+func (s *tickSorter) merge(keys []uint64) []uint64 {
+	st := append(s.stretch[:0], 0)
+	for i := 1; i < len(keys); i++ {
+		if keys[i] < keys[i-1] {
+			st = append(st, i)
+		}
+	}
+	st = append(st, len(keys))
+	from, to := keys, s.tmp[:len(keys)]
+	for len(st) > 2 {
+		w, i := 0, 0
+		for ; i+2 < len(st); i += 2 {
+			a, m, b := st[i], st[i+1], st[i+2]
+			mergeKeys(to[a:b], from[a:m], from[m:b])
+			st[w] = a
+			w++
+		}
+		if i+1 < len(st) {
+			// an odd stretch out
+			copy(to[st[i]:], from[st[i]:])
+			st[w] = st[i]
+			w++
+		}
+		st[w] = len(keys)
+		st = st[:w+1]
+		from, to = to, from
+	}
+	s.stretch = st
+	return from
+}
+
+// mergeKeys merges the ascending a and b into dst (len(dst) == len(a)+len(b)).
+func mergeKeys(dst, a, b []uint64) {
+	i, j, k := 0, 0, 0
+	for i < len(a) && j < len(b) {
+		x, y := a[i], b[j]
+		v, inc := y, 0
+		if x < y { // a conditional move: the outcome is not predictable
+			v, inc = x, 1
+		}
+		dst[k] = v
+		k++
+		i += inc
+		j += 1 - inc
+	}
+	k += copy(dst[k:], a[i:])
+	copy(dst[k:], b[j:])
+}
+
+// boolInt is 1 for true, 0 for false; the compiler makes it a flag move.
+func boolInt(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// emitSorted expands src into dst in the order of the group keys and ends from
+// tickSorter.order. It is emitter.put with the work of a new start done once per
+// group, all of whose notes start at one tick, and the cursor state in locals.
+func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits uint, em *emitter) {
+	tm := em.tm
+	segs := tm.segs
+	m := uint64(1)<<idxBits - 1
+	seg, zero := em.seg, 0
+	started, startTick, startSec := em.started, em.startTick, em.startSec
+	out := 0
+	for _, k := range keys {
+		g := k & m
+		a, b := int(ends[g]), int(ends[g+1])
+		if t := src[a].StartTick; !started || t != startTick {
+			for seg+1 < len(segs) && segs[seg+1].tick <= t {
+				seg++
+			}
+			if em.pc < len(em.progs) && em.progs[em.pc].tick <= t {
+				em.program(t)
+			}
+			started, startTick, startSec = true, t, tm.at(seg, t)
+		}
+		for q := a; q < b; q++ {
+			r := &src[q]
+			// The end's time is computed for every note, not taken from the last
+			// note's when the ends match: whether they match is not predictable, and
+			// the divisions of neighbouring notes overlap. tm.at gives the same bits
+			// either way.
+			zero += boolInt(r.EndTick == startTick)
+			e := seg
+			for e+1 < len(segs) && segs[e+1].tick <= r.EndTick {
+				e++
+				if e-seg > 8 {
+					e = tm.segment(r.EndTick)
+					break
+				}
+			}
+			endSec := tm.at(e, r.EndTick)
+			ch := r.Channel & statusChannelMask
+			n := &dst[out]
+			out++
+			// field by field, not through a composite literal (see pairer.noteOn)
+			n.StartTick = r.StartTick
+			n.EndTick = r.EndTick
+			n.Start = startSec
+			n.End = endSec
+			n.Pitch = r.Pitch
+			n.Velocity = r.Velocity
+			n.Channel = ch
+			n.Program = em.cur[ch]
+			n.Drum = ch == drumChannel
+			n.Track = int(r.Track)
+		}
+	}
+	em.seg, em.zero = seg, em.zero+zero
+	em.started, em.startTick, em.startSec = started, startTick, startSec
+	em.ended = false // the last end was not kept
 }
 
 // Packed heap keys of mergeRuns: start tick above, run index in the low bits.
@@ -381,6 +627,15 @@ type emitter struct {
 	ended              bool // endTick and endSec hold the last end
 }
 
+// program applies the program changes at or before tick.
+func (em *emitter) program(tick int64) {
+	for em.pc < len(em.progs) && em.progs[em.pc].tick <= tick {
+		c := &em.progs[em.pc]
+		em.cur[c.channel&statusChannelMask] = c.program
+		em.pc++
+	}
+}
+
 func (em *emitter) put(n *Note, r *rawNote) {
 	tm := em.tm
 	segs := tm.segs
@@ -388,10 +643,8 @@ func (em *emitter) put(n *Note, r *rawNote) {
 		for em.seg+1 < len(segs) && segs[em.seg+1].tick <= r.StartTick {
 			em.seg++
 		}
-		for em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
-			c := &em.progs[em.pc]
-			em.cur[c.channel&statusChannelMask] = c.program
-			em.pc++
+		if em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
+			em.program(r.StartTick)
 		}
 		em.started, em.startTick, em.startSec = true, r.StartTick, tm.at(em.seg, r.StartTick)
 	}

@@ -82,6 +82,7 @@ type parser struct {
 	keys   []Key
 	end    int64
 	tm     TimeMap
+	sorter tickSorter
 
 	badMeta                         int
 	runningBase, slackBase, eotBase int
@@ -105,6 +106,9 @@ func (ps *parser) release() {
 	ps.names = nil
 	if cap(ps.pair.buf) > 1<<20 {
 		ps.pair.buf = nil
+	}
+	if cap(ps.sorter.keys) > 1<<20 || cap(ps.sorter.counts) > 1<<20 {
+		ps.sorter = tickSorter{}
 	}
 	parserPool.Put(ps)
 }
@@ -282,7 +286,11 @@ func (ps *parser) finish(h Header, index int) Piece {
 	ps.tm.build(&p)
 	em := emitter{tm: &ps.tm, progs: ps.progs}
 	notes := make([]Note, len(pr.buf))
-	mergeRuns(notes, pr.buf, ps.bounds, &em)
+	if keys, ends, idxBits, ok := ps.sorter.order(pr.buf, ps.bounds); ok {
+		emitSorted(notes, pr.buf, keys, ends, idxBits, &em)
+	} else {
+		mergeRuns(notes, pr.buf, ps.bounds, &em)
+	}
 	zero := em.zero
 	p.Notes = notes
 
