@@ -122,7 +122,7 @@ func createShardFile(path string) (*shardFile, error) {
 	}
 	sf := &shardFile{path: path, tmp: tmp, f: f, h: sha256.New()}
 	sf.cw = &countWriter{w: io.MultiWriter(f, sf.h)}
-	sf.bw = bufio.NewWriterSize(sf.cw, 1<<20)
+	sf.bw = bufio.NewWriterSize(sf.cw, 128<<10)
 	return sf, nil
 }
 
