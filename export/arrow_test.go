@@ -1,7 +1,9 @@
 package export
 
 import (
+	"bytes"
 	"context"
+	"encoding/json"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -171,8 +173,16 @@ func TestRunShardsReadByArrow(t *testing.T) {
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("arrow-go and parquet-go read %s differently", sh.Path)
 	}
-	wantMeta := map[string]string{MetaSchemaVersion: "1", MetaEncoding: m.Encoding, MetaVocabulary: string(m.Vocabulary),
-		MetaBuckets: string(m.Buckets), MetaTimeUnit: m.TimeUnit, MetaConfigHash: m.ConfigHash, MetaSplit: sh.Split, MetaToolVersion: "test"}
+	// The manifest file holds the JSON indented; the footer holds it compact.
+	compact := func(raw []byte) string {
+		var b bytes.Buffer
+		if err := json.Compact(&b, raw); err != nil {
+			t.Fatal(err)
+		}
+		return b.String()
+	}
+	wantMeta := map[string]string{MetaSchemaVersion: "1", MetaEncoding: m.Encoding, MetaVocabulary: compact(m.Vocabulary),
+		MetaBuckets: compact(m.Buckets), MetaTimeUnit: m.TimeUnit, MetaConfigHash: m.ConfigHash, MetaSplit: sh.Split, MetaToolVersion: "test"}
 	if !reflect.DeepEqual(meta, wantMeta) {
 		t.Errorf("arrow-go reads the metadata\n%v\nwant\n%v", meta, wantMeta)
 	}

@@ -7,7 +7,9 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"os"
+	"slices"
 )
 
 // entrySpool keeps the manifest's file entries in a temporary file while a run
@@ -71,23 +73,6 @@ func (s *entrySpool) contents() (io.Reader, error) {
 	return bufio.NewReaderSize(s.f, 64<<10), nil
 }
 
-// entries reads every stored entry back.
-func (s *entrySpool) entries() ([]FileEntry, error) {
-	r, err := s.contents()
-	if err != nil {
-		return nil, err
-	}
-	files := make([]FileEntry, 0, s.n)
-	dec := json.NewDecoder(io.MultiReader(bytes.NewReader([]byte("[")), r, bytes.NewReader([]byte("]"))))
-	if err := dec.Decode(&files); err != nil {
-		return nil, fmt.Errorf("file entry spool: %w", err)
-	}
-	if len(files) != s.n {
-		return nil, fmt.Errorf("file entry spool: %d entries read back, %d written", len(files), s.n)
-	}
-	return files, nil
-}
-
 // close closes and removes the spool file.
 func (s *entrySpool) close() {
 	s.f.Close()
@@ -132,9 +117,11 @@ func (m *Manifest) encodeSpooled(w io.Writer, s *entrySpool) error {
 	return err
 }
 
-// fileTally counts file entries for Totals.
+// fileTally counts file entries for Totals and FileCounts.
 type fileTally struct {
 	files, pieces, ok, skipped, duplicate int64
+	classes                               map[string]int64 // skipped files by class
+	datasets                              map[string]bool
 }
 
 func (t *fileTally) add(f FileEntry) {
@@ -145,9 +132,49 @@ func (t *fileTally) add(f FileEntry) {
 		t.ok++
 	case "skipped":
 		t.skipped++
+		if t.classes == nil {
+			t.classes = map[string]int64{}
+		}
+		t.classes[f.Class]++
 	case "duplicate":
 		t.duplicate++
 	}
+	if !t.datasets[f.Dataset] {
+		if t.datasets == nil {
+			t.datasets = map[string]bool{}
+		}
+		t.datasets[f.Dataset] = true
+	}
+}
+
+// counts returns the FileCounts of the entries added.
+func (t *fileTally) counts() FileCounts {
+	c := FileCounts{Skipped: map[string]int64{}}
+	maps.Copy(c.Skipped, t.classes)
+	c.Datasets = slices.Sorted(maps.Keys(t.datasets))
+	return c
+}
+
+// FileCounts summarises the file entries of a manifest.
+type FileCounts struct {
+	Datasets []string         // distinct dataset names of the inputs, sorted
+	Skipped  map[string]int64 // skipped files by FileEntry.Class
+}
+
+// FileCounts returns the summary of m's file entries: counted from Files, or for a
+// manifest returned by Run (which leaves the entries out), kept from the run.
+func (m *Manifest) FileCounts() FileCounts {
+	if m.counts != nil && len(m.Files) == 0 {
+		c := *m.counts
+		c.Skipped = maps.Clone(c.Skipped)
+		c.Datasets = slices.Clone(c.Datasets)
+		return c
+	}
+	var t fileTally
+	for _, f := range m.Files {
+		t.add(f)
+	}
+	return t.counts()
 }
 
 // addTo adds the counts to the totals.

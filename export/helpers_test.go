@@ -9,6 +9,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"reflect"
 	"sort"
 	"testing"
 )
@@ -82,7 +83,32 @@ func writeSynth(t *testing.T, dir string, workers int, files []fileResult) *Mani
 	if err != nil {
 		t.Fatalf("writeOutput: %v", err)
 	}
-	return m
+	return written(t, dir, m)
+}
+
+// written checks that a manifest returned by a run is the one written to dir but
+// for its file entries, which a run leaves out, and returns the one written.
+func written(t testing.TB, dir string, m *Manifest) *Manifest {
+	t.Helper()
+	disk, err := ReadManifest(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(m.Files) != 0 {
+		t.Errorf("the run returned %d file entries; it should leave them out", len(m.Files))
+	}
+	if _, err := m.Encode(); err == nil && m.Totals.Files > 0 {
+		t.Error("a manifest returned by the run encodes without its file entries")
+	}
+	got, want := m.FileCounts(), disk.FileCounts()
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("file counts of the run %+v, of the manifest written %+v", got, want)
+	}
+	if !reflect.DeepEqual(m.Totals, disk.Totals) || !reflect.DeepEqual(m.Shards, disk.Shards) || m.ConfigHash != disk.ConfigHash {
+		t.Errorf("the manifest returned differs from the one written: totals %+v, want %+v; %d shards, want %d",
+			m.Totals, disk.Totals, len(m.Shards), len(disk.Shards))
+	}
+	return disk
 }
 
 // treeHashes maps each file under dir (relative slash path) to its SHA-256.

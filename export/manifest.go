@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -40,7 +41,9 @@ type Manifest struct {
 
 	Totals Totals      `json:"totals"`
 	Shards []Shard     `json:"shards"`
-	Files  []FileEntry `json:"files"` // every input file exactly once, in scan order
+	Files  []FileEntry `json:"files"` // every input file exactly once, in scan order (not filled by Run)
+
+	counts *FileCounts // kept by Run in place of Files
 }
 
 // Totals sums a dataset.
@@ -108,8 +111,12 @@ func DecodeManifest(data []byte) (*Manifest, error) {
 	return &m, nil
 }
 
-// Encode returns the manifest as indented JSON ending in a newline.
+// Encode returns the manifest as indented JSON ending in a newline. A manifest
+// returned by Run has no file entries to encode (see Run) and is refused.
 func (m *Manifest) Encode() ([]byte, error) {
+	if m.counts != nil && len(m.Files) == 0 && m.Totals.Files > 0 {
+		return nil, errors.New("encode manifest: a manifest returned by Run holds no file entries; read the written one with ReadManifest")
+	}
 	data, err := json.MarshalIndent(m, "", "  ")
 	if err != nil {
 		return nil, fmt.Errorf("encode manifest: %w", err)

@@ -146,11 +146,8 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 	if err := commitManifest(sp.dir, m, spool); err != nil {
 		return nil, err
 	}
-	// The entries come back only now that the shard writers are gone: the
-	// run's memory peaks while they work.
-	if m.Files, err = spool.entries(); err != nil {
-		return nil, err
-	}
+	counts := spool.tally.counts()
+	m.counts = &counts
 	return m, nil
 }
 

@@ -183,7 +183,7 @@ func runSources(t testing.TB, dir string, sources []ingest.Source, workers int) 
 	if err != nil {
 		t.Fatalf("Run: %v", err)
 	}
-	return m
+	return written(t, dir, m)
 }
 
 // testHostileMixed: an export of valid and damaged files lists every input
@@ -433,6 +433,7 @@ func testHostileArchives(t *testing.T, valid ingest.Source) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	m = written(t, out, m)
 	mustVerify(t, out)
 	type entry struct{ Source, Status, Class string }
 	var got []entry

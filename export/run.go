@@ -54,6 +54,10 @@ type Progress struct {
 // coverage (relpos), writes the windows as Parquet shards per split, and writes
 // the manifest last. Every input file is listed in the manifest exactly once.
 //
+// The returned manifest is the one written, except that its Files are left out:
+// they grow with the corpus (a million inputs are some 200 MB of entries), and
+// memory must not. FileCounts summarises them; ReadManifest reads them.
+//
 // Run is crash-safe and idempotent: shards and manifest appear only complete, under
 // their final names; running again with the same config finishes an interrupted run
 // and gives byte-identical files, whatever the worker count. The rerun reads and

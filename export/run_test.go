@@ -65,7 +65,7 @@ func runExport(t *testing.T, dir string, cfg Config, opt Options) *Manifest {
 	if err != nil {
 		t.Fatalf("Run: %v", err)
 	}
-	return m
+	return written(t, dir, m)
 }
 
 func TestRunDeterministicAcrossWorkers(t *testing.T) {
@@ -130,10 +130,12 @@ func TestRunDuplicates(t *testing.T) {
 	for _, keep := range []bool{false, true} {
 		cfg := smallConfig()
 		cfg.Shards.KeepDuplicates = keep
-		m, err := Run(context.Background(), sources, cfg, Options{Out: t.TempDir(), Workers: 2, ToolVersion: "test"})
+		out := t.TempDir()
+		m, err := Run(context.Background(), sources, cfg, Options{Out: out, Workers: 2, ToolVersion: "test"})
 		if err != nil {
 			t.Fatal(err)
 		}
+		m = written(t, out, m)
 		if len(m.Files) != 2 {
 			t.Fatalf("%d files listed, want 2", len(m.Files))
 		}

@@ -339,14 +339,14 @@ func runExport(ctx context.Context, cmd *cobra.Command, o *exportOptions, s *str
 		fmt.Fprintf(s.Out, "resumed: kept %d of %d shards from the interrupted run\n", last.Reused, last.Shards)
 	}
 	// As in scan: archive entries that are not MIDI files are listed, not failures.
-	skipped := 0
-	for _, f := range m.Files {
-		if f.Status == string(ingest.StatusSkipped) && f.Class != ingest.ErrNotMIDI.Error() {
-			skipped++
+	var skipped int64
+	for class, n := range m.FileCounts().Skipped {
+		if class != ingest.ErrNotMIDI.Error() {
+			skipped += n
 		}
 	}
 	if skipped > 0 {
-		return &exitError{code: exitSkipped, err: fmt.Errorf("%d of %d input files skipped (see files in %s)", skipped, len(m.Files), filepath.Join(o.out, export.ManifestName))}
+		return &exitError{code: exitSkipped, err: fmt.Errorf("%d of %d input files skipped (see files in %s)", skipped, m.Totals.Files, filepath.Join(o.out, export.ManifestName))}
 	}
 	return nil
 }
@@ -361,12 +361,8 @@ func printSummary(s *streams, m *export.Manifest, dir string) error {
 	}
 	fmt.Fprintf(&b, "%s%s: %d windows, %d tokens, %d pieces in %d shards (%s)\n", dir, part, t.Windows, t.Tokens, t.Pieces, t.Shards, byteCount(t.Bytes))
 	fmt.Fprintf(&b, "files: %d (%d ok, %d duplicate, %d skipped)\n", t.Files, t.FilesOK, t.FilesDuplicate, t.FilesSkipped)
-	classes := map[string]int{}
-	for _, f := range m.Files {
-		if f.Status == string(ingest.StatusSkipped) {
-			classes[f.Class]++
-		}
-	}
+	counts := m.FileCounts()
+	classes := counts.Skipped
 	for _, c := range slices.Sorted(maps.Keys(classes)) {
 		fmt.Fprintf(&b, "  skipped, %s: %d\n", c, classes[c])
 	}
@@ -376,10 +372,10 @@ func printSummary(s *streams, m *export.Manifest, dir string) error {
 	}
 	fmt.Fprintf(&b, "config %s, encoding %s, vocabulary %d, time unit %s\n", m.ConfigHash[:min(12, len(m.ConfigHash))], m.Encoding, m.VocabSize, m.TimeUnit)
 	datasets := map[string]bool{}
-	for _, f := range m.Files {
-		datasets[f.Dataset] = true
+	for _, d := range counts.Datasets {
+		datasets[d] = true
 	}
-	for _, d := range slices.Sorted(maps.Keys(datasets)) {
+	for _, d := range counts.Datasets {
 		if _, ok := m.Licenses[d]; !ok {
 			fmt.Fprintf(&b, "note: no licence recorded for dataset %s (--license %s=TEXT)\n", d, d)
 		}
