@@ -147,6 +147,7 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 	}()
 
 	d := newDeduper(opts.KeepDuplicates)
+	defer d.names.close()
 	names := recordNames{}
 	pending := map[int]*Result{}
 	next := 0
@@ -370,7 +371,7 @@ type deduper struct {
 	// The hash indexes map a hash (its first 16 bytes) to the first kept file that has
 	// it, as an index into names: kept per input file for the whole run, so compact.
 	exact, musical, transpos map[dupKey]int32
-	names                    []string // "dataset/path" of the files the indexes point at
+	names                    *nameStore // "dataset/path" of the files the indexes point at
 }
 
 // dupKey is the first 16 bytes of a hex SHA-256 (or of the SHA-256 of any other key).
@@ -388,7 +389,7 @@ func keyOf(hexHash string) dupKey {
 }
 
 func newDeduper(keep bool) *deduper {
-	return &deduper{keep: keep, exact: map[dupKey]int32{}, musical: map[dupKey]int32{}, transpos: map[dupKey]int32{}}
+	return &deduper{keep: keep, exact: map[dupKey]int32{}, musical: map[dupKey]int32{}, transpos: map[dupKey]int32{}, names: newNameStore()}
 }
 
 // kindRank orders duplicate kinds from finest to coarsest.
@@ -401,11 +402,10 @@ func (d *deduper) check(r *Result) {
 	}
 	exact := keyOf(rec.SHA256)
 	if first, ok := d.exact[exact]; ok {
-		d.mark(r, d.names[first], DupExact)
+		d.mark(r, d.names.get(first), DupExact)
 		return
 	}
-	self := int32(len(d.names))
-	d.names = append(d.names, rec.Key())
+	self := d.names.add(rec.Key())
 	d.exact[exact] = self
 	of := int32(-1)
 	var kind DuplicateKind
@@ -446,7 +446,7 @@ func (d *deduper) check(r *Result) {
 		}
 	}
 	if any && all {
-		d.mark(r, d.names[of], kind)
+		d.mark(r, d.names.get(of), kind)
 	}
 }
 
