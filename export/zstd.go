@@ -18,13 +18,26 @@ const zstdWindow = 1 << 20
 
 // zstdCodec is parquet-go's Zstandard codec (same level and frame options) with
 // the window capped at zstdWindow.
+//
+// Encoders are kept in a free list that outlives collections: a sync.Pool drops
+// them at every collection, and each one rebuilt allocates its 3.5 MiB of
+// history and tables again, which the heap then holds twice until the next
+// collection. The list keeps as many as were ever busy at once, up to
+// maxIdleEncoders.
 type zstdCodec struct {
 	level    zstd.EncoderLevel
-	encoders sync.Pool
+	encoders chan *zstd.Encoder
 	decoders sync.Pool
 }
 
-func newZstdCodec(level zstd.EncoderLevel) *zstdCodec { return &zstdCodec{level: level} }
+// maxIdleEncoders bounds the encoders kept between uses: more than the pages
+// compressed at once by any worker count of a 2-core to 16-core machine would
+// need is rare, and an encoder beyond it is simply dropped.
+const maxIdleEncoders = 16
+
+func newZstdCodec(level zstd.EncoderLevel) *zstdCodec {
+	return &zstdCodec{level: level, encoders: make(chan *zstd.Encoder, maxIdleEncoders)}
+}
 
 // String implements compress.Codec.
 func (c *zstdCodec) String() string { return "ZSTD" }
@@ -34,8 +47,10 @@ func (c *zstdCodec) CompressionCodec() format.CompressionCodec { return format.Z
 
 // Encode implements compress.Codec.
 func (c *zstdCodec) Encode(dst, src []byte) ([]byte, error) {
-	e, _ := c.encoders.Get().(*zstd.Encoder)
-	if e == nil {
+	var e *zstd.Encoder
+	select {
+	case e = <-c.encoders:
+	default:
 		var err error
 		e, err = zstd.NewWriter(nil,
 			zstd.WithEncoderConcurrency(1),
@@ -48,7 +63,12 @@ func (c *zstdCodec) Encode(dst, src []byte) ([]byte, error) {
 			return dst, fmt.Errorf("zstd encoder: %w", err)
 		}
 	}
-	defer c.encoders.Put(e)
+	defer func() {
+		select {
+		case c.encoders <- e:
+		default:
+		}
+	}()
 	return e.EncodeAll(src, dst[:0]), nil
 }
 
