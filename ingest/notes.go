@@ -477,17 +477,7 @@ func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits 
 			ch := r.Channel & statusChannelMask
 			n := &dst[out]
 			out++
-			// field by field, not through a composite literal (see pairer.noteOn)
-			n.StartTick = r.StartTick
-			n.EndTick = r.EndTick
-			n.Start = startSec
-			n.End = endSec
-			n.Pitch = r.Pitch
-			n.Velocity = r.Velocity
-			n.Channel = ch
-			n.Program = em.cur[ch]
-			n.Drum = ch == drumChannel
-			n.Track = int(r.Track)
+			storeNote(n, r, startSec, endSec, ch, em.cur[ch])
 		}
 	}
 	em.seg, em.zero = seg, em.zero+zero
@@ -664,15 +654,20 @@ func (em *emitter) put(n *Note, r *rawNote) {
 		em.ended, em.endTick, em.endSec = true, r.EndTick, tm.at(e, r.EndTick)
 	}
 	ch := r.Channel & statusChannelMask
-	// field by field into *n, not through a composite literal (see pairer.noteOn)
+	storeNote(n, r, em.startSec, em.endSec, ch, em.cur[ch])
+}
+
+// storeNote writes a raw note with its times, channel and program into *n, field
+// by field, not through a composite literal (see pairer.noteOn).
+func storeNote(n *Note, r *rawNote, start, end float64, ch, program uint8) {
 	n.StartTick = r.StartTick
 	n.EndTick = r.EndTick
-	n.Start = em.startSec
-	n.End = em.endSec
+	n.Start = start
+	n.End = end
 	n.Pitch = r.Pitch
 	n.Velocity = r.Velocity
 	n.Channel = ch
-	n.Program = em.cur[ch]
+	n.Program = program
 	n.Drum = ch == drumChannel
 	n.Track = int(r.Track)
 }
