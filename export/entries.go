@@ -33,15 +33,11 @@ const (
 // newEntrySpool creates the spool file in dir, unlinked at once where the
 // system allows (named like a spill file otherwise, so a rerun removes it).
 func newEntrySpool(dir string) (*entrySpool, error) {
-	f, err := os.CreateTemp(dir, spillPrefix+"*"+TempSuffix)
+	f, named, err := createScratch(dir)
 	if err != nil {
 		return nil, fmt.Errorf("file entry spool: %w", err)
 	}
-	s := &entrySpool{f: f, w: bufio.NewWriterSize(f, 64<<10)}
-	if os.Remove(f.Name()) != nil {
-		s.name = f.Name()
-	}
-	return s, nil
+	return &entrySpool{f: f, name: named, w: bufio.NewWriterSize(f, 64<<10)}, nil
 }
 
 // add appends one file entry.
@@ -91,6 +87,7 @@ func (m *Manifest) encodeSpooled(w io.Writer, s *entrySpool) error {
 		return errors.New("encode manifest: files both in memory and spooled")
 	}
 	m.Files = []FileEntry{}
+	defer func() { m.Files = nil }()
 	head, err := json.MarshalIndent(m, "", "  ")
 	if err != nil {
 		return fmt.Errorf("encode manifest: %w", err)

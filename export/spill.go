@@ -40,15 +40,30 @@ func (p *spillPool) GetBuffer() io.ReadWriteSeeker {
 		p.free = p.free[:n-1]
 		return f
 	}
-	f, err := os.CreateTemp(p.dir, spillPrefix+"*"+TempSuffix)
+	f, named, err := createScratch(p.dir)
 	if err != nil {
 		return failedBuffer{fmt.Errorf("page spill file: %w", err)}
 	}
-	if os.Remove(f.Name()) != nil {
-		p.named = append(p.named, f.Name())
+	if named != "" {
+		p.named = append(p.named, named)
 	}
 	p.files = append(p.files, f)
 	return f
+}
+
+// createScratch creates a scratch file in dir and unlinks it at once, so that a
+// crash leaves nothing behind. Where the system cannot unlink an open file, named
+// is its name, which the caller removes after closing it (a rerun removes one a
+// crash left: spill names end in TempSuffix).
+func createScratch(dir string) (f *os.File, named string, err error) {
+	f, err = os.CreateTemp(dir, spillPrefix+"*"+TempSuffix)
+	if err != nil {
+		return nil, "", err
+	}
+	if os.Remove(f.Name()) != nil {
+		named = f.Name()
+	}
+	return f, named, nil
 }
 
 // PutBuffer implements parquet.BufferPool. The writer reads a buffer up to its
