@@ -441,7 +441,6 @@ func boolInt(b bool) int {
 // group, all of whose notes start at one tick, and the cursor state in locals.
 func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits uint, em *emitter) {
 	tm := em.tm
-	segs := tm.segs
 	m := uint64(1)<<idxBits - 1
 	seg, zero := em.seg, 0
 	started, startTick, startSec := em.started, em.startTick, em.startSec
@@ -450,9 +449,7 @@ func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits 
 		g := k & m
 		a, b := int(ends[g]), int(ends[g+1])
 		if t := src[a].StartTick; !started || t != startTick {
-			for seg+1 < len(segs) && segs[seg+1].tick <= t {
-				seg++
-			}
+			seg = tm.forward(seg, t)
 			if em.pc < len(em.progs) && em.progs[em.pc].tick <= t {
 				em.program(t)
 			}
@@ -465,15 +462,7 @@ func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits 
 			// the divisions of neighbouring notes overlap. tm.at gives the same bits
 			// either way.
 			zero += boolInt(r.EndTick == startTick)
-			e := seg
-			for e+1 < len(segs) && segs[e+1].tick <= r.EndTick {
-				e++
-				if e-seg > 8 {
-					e = tm.segment(r.EndTick)
-					break
-				}
-			}
-			endSec := tm.at(e, r.EndTick)
+			endSec := tm.at(tm.near(seg, r.EndTick), r.EndTick)
 			ch := r.Channel & statusChannelMask
 			n := &dst[out]
 			out++
@@ -628,11 +617,8 @@ func (em *emitter) program(tick int64) {
 
 func (em *emitter) put(n *Note, r *rawNote) {
 	tm := em.tm
-	segs := tm.segs
 	if !em.started || r.StartTick != em.startTick {
-		for em.seg+1 < len(segs) && segs[em.seg+1].tick <= r.StartTick {
-			em.seg++
-		}
+		em.seg = tm.forward(em.seg, r.StartTick)
 		if em.pc < len(em.progs) && em.progs[em.pc].tick <= r.StartTick {
 			em.program(r.StartTick)
 		}
@@ -643,15 +629,7 @@ func (em *emitter) put(n *Note, r *rawNote) {
 		em.zero++
 		em.ended, em.endTick, em.endSec = true, r.EndTick, em.startSec
 	case !em.ended || r.EndTick != em.endTick:
-		e := em.seg
-		for e+1 < len(segs) && segs[e+1].tick <= r.EndTick {
-			e++
-			if e-em.seg > 8 {
-				e = tm.segment(r.EndTick)
-				break
-			}
-		}
-		em.ended, em.endTick, em.endSec = true, r.EndTick, tm.at(e, r.EndTick)
+		em.ended, em.endTick, em.endSec = true, r.EndTick, tm.at(tm.near(em.seg, r.EndTick), r.EndTick)
 	}
 	ch := r.Channel & statusChannelMask
 	storeNote(n, r, em.startSec, em.endSec, ch, em.cur[ch])

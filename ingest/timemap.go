@@ -72,6 +72,28 @@ func (m *TimeMap) at(i int, tick int64) float64 {
 	return (s.acc + float64(tick-s.tick)*s.num) / m.den
 }
 
+// forward returns the segment holding tick, for tick at or after segment i: the
+// cursor of ticks met in rising order.
+func (m *TimeMap) forward(i int, tick int64) int {
+	for i+1 < len(m.segs) && m.segs[i+1].tick <= tick {
+		i++
+	}
+	return i
+}
+
+// near returns the segment holding tick, for tick at or after segment i and
+// usually within a few segments of it (a note's end after its start); farther
+// than 8, it searches.
+func (m *TimeMap) near(i int, tick int64) int {
+	e := i
+	for segs := m.segs; e+1 < len(segs) && segs[e+1].tick <= tick; e++ {
+		if e-i >= 8 {
+			return m.segment(tick)
+		}
+	}
+	return e
+}
+
 // segment returns the index of the segment holding tick.
 func (m *TimeMap) segment(tick int64) int {
 	if len(m.segs) < 8 {
