@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -172,7 +173,7 @@ func TestEntrySpoolEncode(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if len(back.Files) != len(files) || (n > 0 && !equalEntries(back.Files, files)) {
+		if len(back.Files) != len(files) || (n > 0 && !slices.Equal(back.Files, files)) {
 			t.Errorf("%d files: decoded %d entries, different", n, len(back.Files))
 		}
 		if spool.tally.files != int64(n) {
@@ -180,13 +181,4 @@ func TestEntrySpoolEncode(t *testing.T) {
 		}
 		spool.close()
 	}
-}
-
-func equalEntries(a, b []FileEntry) bool {
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
