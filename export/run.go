@@ -261,6 +261,7 @@ func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest
 // whose pieces cannot be encoded is listed as skipped with the reason, and none of
 // its rows are kept.
 func (p *pipeline) process(enc *tokenize.Encoder, cw *coverageWorker, r *ingest.Result) (fileResult, error) {
+	defer r.Release() // rows copy the tokens; nothing keeps the notes
 	rec := &r.Record
 	source := rec.Path
 	if source == "" {

@@ -48,6 +48,7 @@ func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
 			pieces = append(pieces, p)
 		}
 		if err := r.Err(); err != nil {
+			releasePieces(pieces)
 			return nil, err
 		}
 		if len(pieces) > 0 {
@@ -285,7 +286,7 @@ func (ps *parser) finish(h Header, index int) Piece {
 	}
 	ps.tm.build(&p)
 	em := emitter{tm: &ps.tm, progs: ps.progs}
-	notes := make([]Note, len(pr.buf))
+	notes := getNotes(len(pr.buf)) // every note is stored below
 	if keys, ends, idxBits, ok := ps.sorter.order(pr.buf, ps.bounds); ok {
 		emitSorted(notes, pr.buf, keys, ends, idxBits, &em)
 	} else {

@@ -311,6 +311,7 @@ func processEntry(e *entry, opts *Options, h *pieceHasher, buf *[]byte) *Result 
 	err = opts.Filter.check(st, had)
 	rec.Notes, rec.Seconds = st.notes, st.seconds
 	if err != nil {
+		releasePieces(pieces)
 		return skip(r, err)
 	}
 	rec.Status = StatusOK
@@ -462,5 +463,6 @@ func (d *deduper) mark(r *Result, of string, kind DuplicateKind) {
 		return
 	}
 	r.Record.Status = StatusDuplicate
+	r.Release()
 	r.Pieces = nil
 }

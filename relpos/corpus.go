@@ -108,6 +108,7 @@ func CountCorpus(ctx context.Context, sources []ingest.Source, cfg Config, opt C
 			}
 			for j := range jobs {
 				d := countFile(counter, enc, j.r)
+				j.r.Release()
 				mu.Lock()
 				out.Files++
 				if d.skipped != nil {

@@ -105,6 +105,7 @@ func runDemo(ctx context.Context, o *demoOptions, s *streams) error {
 	var checked int
 	err = ingest.Scan(ctx, sources, scanOpts, func(r *ingest.Result) error {
 		sum.Add(r)
+		r.Release()
 		key := r.Record.Dataset + "/" + r.Record.Path
 		c, ok := damaged[key]
 		if !ok {

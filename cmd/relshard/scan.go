@@ -196,6 +196,7 @@ func runScan(ctx context.Context, o *scanOptions, s *streams) error {
 	var writeErr error
 	err := ingest.Scan(ctx, o.sourceList(), o.ingestOptions(), func(r *ingest.Result) error {
 		sum.Add(r)
+		r.Release() // the inventory needs no notes past this point
 		rec := &r.Record
 		if rec.Status == ingest.StatusSkipped && !errors.Is(r.Err, ingest.ErrNotMIDI) {
 			skipped++

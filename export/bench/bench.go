@@ -151,6 +151,7 @@ func Run(ctx context.Context, cfg Config, progress func(string)) (*Report, error
 	ingestT, err := timed(func() error {
 		return ingest.Scan(ctx, sources, opts, func(r *ingest.Result) error {
 			notes += int64(r.Record.Notes)
+			r.Release() // as relshard scan does
 			return nil
 		})
 	})
@@ -339,6 +340,7 @@ func countingRatio(ctx context.Context, sources []ingest.Source, workers int) (f
 	opts := ingest.DefaultOptions()
 	opts.Workers = workers
 	err = ingest.Scan(ctx, sources, opts, func(r *ingest.Result) error {
+		defer r.Release()
 		for i := range r.Pieces {
 			err := enc.Windows(&r.Pieces[i], func(w tokenize.Window) error {
 				if len(w.Tokens) == L {

@@ -50,6 +50,7 @@ func Run(ctx context.Context, sources []ingest.Source, cfg Config) (*Report, err
 						return err
 					}
 				}
+				j.r.Release()
 			}
 			return nil
 		})
