@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"encoding/hex"
+	"hash"
 	"math"
 	"math/bits"
 	"slices"
@@ -24,9 +25,18 @@ import (
 // lowest non-drum pitch of the piece, so the same piece shifted by any number of
 // semitones hashes alike; drum notes keep their keys (they name instruments, General
 // MIDI 1 percussion map).
+//
+// The hashed stream (version 2) is the version string, the unit ('q' or 's'), the
+// common denominator and the note count as varints, then per note in order of onset,
+// drum flag, key and duration: the onset's step from the previous note's and the
+// duration (varints, numerators over the denominator), the key relative to the lowest
+// non-drum key (drums: the key itself) and the drum flag. The transposed hash is the
+// first 128 bits of the stream's SHA-256; the musical hash is that of the stream
+// followed by the lowest non-drum key as one byte (255 when there is none), which
+// makes the keys absolute again. Equal hashes mean equal note multisets either way.
 
 // hashVersion prefixes the hashed stream so that a change of encoding changes every hash.
-const hashVersion = "relshard notes v1"
+const hashVersion = "relshard notes v2"
 
 // noteKey is the part of a note that the content hashes cover: the start tick, and
 // packed in one word, ordered as the hash orders notes that start together: the drum
@@ -57,8 +67,11 @@ func (k noteKey) drum() bool   { return k.rest>>keyDrumBit != 0 }
 
 // pieceHasher computes content hashes, reusing its buffers between pieces.
 type pieceHasher struct {
-	keys      []noteKey
-	buf, tbuf []byte
+	keys []noteKey
+	buf  []byte
+	sha  hash.Hash
+	sum  [sha256.Size]byte
+	one  [1]byte
 }
 
 func newPieceHasher() *pieceHasher { return &pieceHasher{} }
@@ -169,52 +182,58 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	// multiplication by its inverse modulo 2^64.
 	div := func(v int64) uint64 { return uint64(max(v, 0)) >> shift * inv }
 
+	// One stream serves both hashes: the transposed hash is its SHA-256, and the
+	// musical hash that of the stream followed by the lowest non-drum key, which
+	// restores the absolute keys. The digest's state is read out after the stream and
+	// again after the extra byte, so the notes are written and hashed once.
 	m := append(h.buf[:0], hashVersion...)
 	m = append(m, unit) // quarter notes or seconds
 	m = binary.AppendUvarint(m, uint64(den)/g)
 	m = binary.AppendUvarint(m, uint64(len(keys)))
-	// The notes are written with indexes into buffers grown once to the most they
-	// can take: two 10-byte varints and two bytes per note.
-	head := len(m)
-	need := head + len(keys)*(2*binary.MaxVarintLen64+2)
-	m = slices.Grow(m, need-head)[:need]
-	tr := slices.Grow(h.tbuf[:0], need)[:need]
-	i := copy(tr, m[:head])
-	j := i
+	// The notes are written with an index into a buffer grown once to the most it can
+	// take: two 10-byte varints and two bytes per note.
+	i := len(m)
+	m = slices.Grow(m, len(keys)*(2*binary.MaxVarintLen64+2))
+	m = m[:cap(m)]
+	last := uint64(0)
 	for _, k := range keys {
+		// Keys are sorted by onset, so the onset is written as the step from the
+		// previous one: mostly a single byte.
 		on, ln := div(k.start*scale), div(k.dur()*scale)
+		on, last = on-last, on
 		for on >= 0x80 {
-			m[i], tr[j] = byte(on)|0x80, byte(on)|0x80
+			m[i] = byte(on) | 0x80
 			on >>= 7
 			i++
-			j++
 		}
-		m[i], tr[j] = byte(on), byte(on)
+		m[i] = byte(on)
 		i++
-		j++
 		for ln >= 0x80 {
-			m[i], tr[j] = byte(ln)|0x80, byte(ln)|0x80
+			m[i] = byte(ln) | 0x80
 			ln >>= 7
 			i++
-			j++
 		}
-		m[i], tr[j] = byte(ln), byte(ln)
+		m[i] = byte(ln)
 		pitch, drum := k.pitch(), boolByte(k.drum())
-		rel := pitch
 		if drum == 0 {
-			rel -= minPitch
+			pitch -= minPitch
 		}
 		m[i+1], m[i+2] = pitch, drum
-		tr[j+1], tr[j+2] = rel, drum
 		i += 3
-		j += 3
 	}
-	m, tr = m[:i], tr[:j]
-	h.buf, h.tbuf = m, tr
-	sum := sha256.Sum256(m)
-	p.MusicalHash = hex.EncodeToString(sum[:hashLen])
-	sum = sha256.Sum256(tr)
+	m = m[:i]
+	h.buf = m
+	if h.sha == nil {
+		h.sha = sha256.New()
+	}
+	h.sha.Reset()
+	h.sha.Write(m)
+	sum := h.sha.Sum(h.sum[:0])
 	p.TransposedHash = hex.EncodeToString(sum[:hashLen])
+	h.one[0] = minPitch
+	h.sha.Write(h.one[:])
+	sum = h.sha.Sum(h.sum[:0])
+	p.MusicalHash = hex.EncodeToString(sum[:hashLen])
 	st.notes = len(p.Notes)
 	if st.maxPitch >= 0 {
 		st.minPitch = int(minPitch)

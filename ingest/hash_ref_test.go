@@ -13,7 +13,7 @@ import (
 
 // referenceHashes is the content hash encoding of hash.go written the plain way: keys
 // sorted with the library sort, the common divisor found with remainders, every
-// numerator divided, the varints appended. hashPiece must give the same hashes with
+// numerator divided, the varints appended, each hash a SHA-256 of a whole buffer. hashPiece must give the same hashes with
 // its one-pass, division-free code.
 func referenceHashes(p *Piece) (musical, transposed string) {
 	scale, den, unit := int64(1), int64(p.TicksPerQuarter), byte('q')
@@ -46,20 +46,19 @@ func referenceHashes(p *Piece) (musical, transposed string) {
 	m := append([]byte(hashVersion), unit)
 	m = binary.AppendUvarint(m, uint64(den)/g)
 	m = binary.AppendUvarint(m, uint64(len(keys)))
-	tr := slices.Clone(m)
+	prev := uint64(0)
 	for _, k := range keys {
 		on, ln := uint64(max(k.start*scale, 0))/g, uint64(max(k.dur()*scale, 0))/g
-		m = binary.AppendUvarint(binary.AppendUvarint(m, on), ln)
-		tr = binary.AppendUvarint(binary.AppendUvarint(tr, on), ln)
+		m = binary.AppendUvarint(binary.AppendUvarint(m, on-prev), ln)
+		prev = on
 		pitch, drum := k.pitch(), k.drum()
-		m = append(m, pitch, boolByte(drum))
-		rel := pitch
 		if !drum {
-			rel -= minPitch
+			pitch -= minPitch
 		}
-		tr = append(tr, rel, boolByte(drum))
+		m = append(m, pitch, boolByte(drum))
 	}
-	ms, ts := sha256.Sum256(m), sha256.Sum256(tr)
+	ts := sha256.Sum256(m)
+	ms := sha256.Sum256(append(m, minPitch))
 	return hex.EncodeToString(ms[:hashLen]), hex.EncodeToString(ts[:hashLen])
 }
 
