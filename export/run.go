@@ -162,7 +162,8 @@ func (p *pipeline) run(ctx context.Context, sources []ingest.Source, iopt ingest
 	g, gctx := errgroup.WithContext(ctx)
 	// inFlight bounds the files between the scan and emit, and so the reorder buffer.
 	inFlight := make(chan struct{}, 2*p.workers)
-	jobs := make(chan job)
+	// Buffered (within inFlight), so a worker finds the next file waiting.
+	jobs := make(chan job, 2*p.workers)
 	results := make(chan done, p.workers)
 	g.Go(func() error {
 		defer close(jobs)

