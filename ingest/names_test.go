@@ -11,9 +11,8 @@ import (
 func TestNameStore(t *testing.T) {
 	for _, onDisk := range []bool{true, false} {
 		s := newNameStore()
-		if !onDisk {
-			s.close()
-			s = &nameStore{}
+		if onDisk {
+			s.spillAt = 10 << 10 // spill after a few hundred names
 		}
 		var want []string
 		for i := range 5000 {
@@ -33,8 +32,11 @@ func TestNameStore(t *testing.T) {
 				t.Fatalf("on disk %v: name %d: %q, want %q", onDisk, i, got, w)
 			}
 		}
-		if onDisk && (s.f == nil || len(s.mem) != 0) {
+		if onDisk && (s.f == nil || len(s.mem) != 0 || s.buf != nil) {
 			t.Errorf("names not kept in the temporary file (file %v, %d in memory)", s.f != nil, len(s.mem))
+		}
+		if !onDisk && s.f != nil {
+			t.Errorf("a small store made a temporary file")
 		}
 		s.close()
 	}
@@ -44,11 +46,13 @@ func TestNameStore(t *testing.T) {
 // added after the failure in memory, and never panics on a lost one.
 func TestNameStoreWriteError(t *testing.T) {
 	s := newNameStore()
+	s.spillAt = 0
+	s.add("d/first.mid") // spills
 	if s.f == nil {
 		t.Skip("no temporary file on this system")
 	}
 	s.f.Close() // every write from now on fails
-	var want []string
+	want := []string{"d/first.mid"}
 	for i := range 3000 {
 		name := fmt.Sprintf("d/%040d.mid", i)
 		s.add(name)

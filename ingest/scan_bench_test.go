@@ -72,6 +72,7 @@ func BenchmarkScan(b *testing.B) {
 				for j := range pieces {
 					h.hashPiece(&pieces[j])
 				}
+				releasePieces(pieces)
 			}
 		}
 	})
@@ -89,6 +90,7 @@ func BenchmarkScan(b *testing.B) {
 				n := 0
 				err := Scan(context.Background(), []Source{{Path: scanOpenMSXDir}}, opts, func(r *Result) error {
 					n++
+					r.Release() // as relshard scan does
 					return nil
 				})
 				if err != nil || n != len(paths) {
