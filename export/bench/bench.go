@@ -13,7 +13,6 @@ import (
 	"slices"
 	"strings"
 	"sync/atomic"
-	"syscall"
 	"time"
 
 	"gitlab.com/gomidi/midi/v2/smf"
@@ -475,17 +474,20 @@ func memoryRatio(ctx context.Context, cfg Config, tmp string) (small, large int6
 			return 0, fmt.Errorf("bench: %w", err)
 		}
 		out := filepath.Join(tmp, fmt.Sprintf("mem-out-%d", n))
+		peak := filepath.Join(tmp, fmt.Sprintf("mem-peak-%d.txt", n))
 		cmd := exec.CommandContext(ctx, cfg.Exe, "export", list, "--out", out)
+		cmd.Env = append(os.Environ(), PeakRSSEnv+"="+peak)
 		var stderr bytes.Buffer
 		cmd.Stderr = &stderr
 		if err := cmd.Run(); err != nil {
 			return 0, fmt.Errorf("bench: export of %d files: %w: %s", n, err, strings.TrimSpace(stderr.String()))
 		}
-		ru, ok := cmd.ProcessState.SysUsage().(*syscall.Rusage)
-		if !ok {
-			return 0, errors.New("bench: peak memory not measurable on this system")
+		// Not the child's rusage, which starts from this process's own peak (see PeakRSSEnv).
+		rss, err := readPeakRSS(peak)
+		if err != nil {
+			return 0, fmt.Errorf("bench: export of %d files: %w", n, err)
 		}
-		return ru.Maxrss * 1024, nil // Linux reports kilobytes
+		return rss, nil
 	}
 	if small, err = run(cfg.MemSmall); err != nil {
 		return 0, 0, err
