@@ -8,7 +8,7 @@ import (
 
 // nameStore keeps the "dataset/path" names of the files that own a content hash,
 // which duplicate reasons quote. A corpus of a million files holds some 100 MB of
-// them, so past the first few megabytes they go to an unlinked temporary file and
+// them, so past the first 256 KiB they go to an unlinked temporary file and
 // memory keeps 8 bytes a name; when no temporary file can be made, they stay in
 // memory. Names are read back only for duplicates. A small scan makes no file at
 // all (creating one costs about half a millisecond here).
@@ -26,7 +26,7 @@ type nameStore struct {
 }
 
 // spillNames is the default nameStore.spillAt.
-const spillNames = 4 << 20
+const spillNames = 256 << 10
 
 func newNameStore() *nameStore { return &nameStore{spillAt: spillNames} }
 
