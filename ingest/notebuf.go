@@ -15,8 +15,8 @@ import (
 // at most a third of itself; bigger pieces get buffers of their exact size that are
 // never pooled, so a rare huge file cannot pin its memory for the rest of a run.
 
-// maxPooledNotes is the largest buffer kept for reuse (3 MiB of notes).
-const maxPooledNotes = 1 << 16
+// maxPooledNotes is the largest buffer kept for reuse (768 KiB of notes).
+const maxPooledNotes = 1 << 14
 
 // noteClassSizes are the buffer sizes of the pool's classes, ascending.
 var noteClassSizes = func() []int {

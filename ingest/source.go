@@ -249,7 +249,10 @@ func enumerateFolder(ctx context.Context, root string, base entry, opts *Options
 	}
 	walk(root, "")
 	slices.SortStableFunc(files, func(a, b folderFile) int { return strings.Compare(a.rel, b.rel) })
-	for _, f := range files {
+	for i, f := range files {
+		// Dropped once taken: the list is held for the whole walk, and its names,
+		// the most of it, can go as the scan passes them.
+		files[i] = folderFile{}
 		e := base
 		e.path = f.rel
 		e.err = f.err
@@ -327,7 +330,8 @@ func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) er
 	slices.Sort(paths)
 	// A path listed twice is one input file: one record, not a copy of itself.
 	paths = slices.Compact(paths)
-	for _, p := range paths {
+	for i, p := range paths {
+		paths[i] = "" // the names go as the scan passes them
 		e := base
 		e.path = p
 		abs := p
