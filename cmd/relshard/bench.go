@@ -37,7 +37,7 @@ func (o *benchOptions) AddFlags(fs *pflag.FlagSet) {
 	fs.IntVar(&o.workers, "workers", 0, "workers of the floors and the full export (0: all cores)")
 	fs.IntVar(&o.memSmall, "mem-small", d.MemSmall, "files of the smaller peak-memory export")
 	fs.IntVar(&o.memLarge, "mem-large", d.MemLarge, "files of the larger peak-memory export")
-	fs.IntVar(&o.rounds, "rounds", 3, "times the ingest ÷ read and workers ratios are measured (the median is judged)")
+	fs.IntVar(&o.rounds, "rounds", 3, "times the ingest, memory and workers ratios are measured (the median is judged)")
 	fs.BoolVar(&o.smoke, "smoke", false, "a quick run on a small corpus; targets are reported but not enforced")
 	fs.BoolVar(&o.noMemory, "no-memory", false, "skip the peak-memory exports (child processes)")
 	fs.BoolVar(&o.json, "json", false, "print the measures as JSON")
@@ -74,9 +74,10 @@ measured in the same run, because shared machines are noisy:
   peak RSS of export, 20,000 ÷ 2,000 files              target ≤ 1.25, and < 512 MiB
   export wall time, --workers 1 ÷ --workers 2           target ≥ 1.7 on 2 cores
 
-plus throughput in files/s, notes/s, tokens/s and MB/s. The ingest and workers ratios
-are measured --rounds times, the two sides back to back, and the median is judged; the
-detail column lists every round. With --smoke it runs on a
+plus throughput in files/s, notes/s, tokens/s and MB/s. The ingest, memory and workers
+ratios are measured --rounds times, the two sides back to back, and the median is
+judged; the detail column lists every round. Peak memory is what each export child
+process reports of itself (VmHWM, Linux). With --smoke it runs on a
 small corpus and enforces nothing.` + "\n" + exitCodesHelp + `
   A failed target exits with status 1.`,
 			Args: cobra.NoArgs,
