@@ -100,7 +100,7 @@ func TestHostileCorpusParse(t *testing.T) {
 		before := totalAlloc()
 		_, err := Parse(c.Name, c.Data, DefaultParseOptions())
 		alloc := totalAlloc() - before
-		// Parse's doc promises about 16 bytes per input byte at most; 32x plus a
+		// Parse's doc promises about 24 bytes per input byte at most; 32x plus a
 		// fixed 256 KiB for the pooled parser's first growth leaves room.
 		if limit := 32*uint64(len(c.Data)) + 256<<10; alloc > limit {
 			t.Errorf("%s (%s): allocated %d bytes for %d input bytes", c.Name, c.Detail, alloc, len(c.Data))

@@ -23,8 +23,9 @@ import (
 // tracks in time order; channel index 9 is drums (General MIDI 1). See notes.go for
 // the details, Reader for what the event reader accepts.
 //
-// Parse never panics on bad input. It allocates about 16 bytes per input byte at
-// most (a 48-byte Note per 3-byte running-status note-on), usually under 6.
+// Parse never panics on bad input. It allocates about 24 bytes per input byte at
+// most (a 48-byte Note per 3-byte running-status note-on, in a buffer rounded up to
+// its pool class by at most half; see Result.Release), usually under 8.
 func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
 	ps := parserPool.Get().(*parser)
 	defer ps.release()
