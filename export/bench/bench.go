@@ -272,7 +272,7 @@ func ratio(a, b time.Duration) float64 {
 }
 
 // median is the middle of ds (the mean of the two middle ones for an even count).
-func median[T ~int64](ds []T) T {
+func median[T ~int64 | ~float64](ds []T) T {
 	s := slices.Sorted(slices.Values(ds))
 	if len(s) == 0 {
 		return 0
@@ -294,16 +294,7 @@ func medianRatio[T ~int64](a, b []T) (float64, string) {
 		}
 		parts[i] = fmt.Sprintf("%.2f", rs[i])
 	}
-	detail := "rounds " + strings.Join(parts, ", ")
-	slices.Sort(rs)
-	switch n := len(rs); {
-	case n == 0:
-		return 0, detail
-	case n%2 == 0:
-		return (rs[n/2-1] + rs[n/2]) / 2, detail
-	default:
-		return rs[n/2], detail
-	}
+	return median(rs), "rounds " + strings.Join(parts, ", ")
 }
 
 func timed(f func() error) (time.Duration, error) {
