@@ -74,7 +74,7 @@ type pieceHasher struct {
 	one  [1]byte
 }
 
-func newPieceHasher() *pieceHasher { return &pieceHasher{} }
+func newPieceHasher() *pieceHasher { return &pieceHasher{sha: sha256.New()} }
 
 // fileSHA256 returns the hex SHA-256 of a file's bytes.
 func fileSHA256(data []byte) string {
@@ -223,9 +223,6 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	}
 	m = m[:i]
 	h.buf = m
-	if h.sha == nil {
-		h.sha = sha256.New()
-	}
 	h.sha.Reset()
 	h.sha.Write(m)
 	sum := h.sha.Sum(h.sum[:0])

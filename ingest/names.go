@@ -3,6 +3,7 @@ package ingest
 import (
 	"bufio"
 	"fmt"
+	"math"
 	"os"
 )
 
@@ -13,12 +14,12 @@ import (
 // memory. Names are read back only for duplicates. A small scan makes no file at
 // all (creating one costs about half a millisecond here).
 type nameStore struct {
-	// spillAt is the size of the names held in buf beyond which they move to a file.
+	// spillAt is the size of the names held in buf beyond which they move to a file;
+	// after a failed spill, never.
 	spillAt int
 	buf     []byte   // the names while f is nil
 	f       *os.File // the names once spilled
 	w       *bufio.Writer
-	tried   bool    // a spill was attempted: never again
 	size    int64   // bytes of names in buf or f
 	ends    []int64 // end offset of each name in buf or f
 	mem     []string
@@ -33,7 +34,7 @@ func newNameStore() *nameStore { return &nameStore{spillAt: spillNames} }
 // spill moves the names from buf to a new unlinked temporary file; on any failure
 // they stay in buf for the rest of the scan.
 func (s *nameStore) spill() {
-	s.tried = true
+	s.spillAt = math.MaxInt // one attempt
 	f, err := os.CreateTemp("", "relshard-names-*")
 	if err != nil {
 		return
@@ -59,7 +60,7 @@ func (s *nameStore) add(name string) int32 {
 		s.mem = append(s.mem, name)
 		return i
 	}
-	if s.f == nil && !s.tried && len(s.buf)+len(name) > s.spillAt {
+	if s.f == nil && len(s.buf)+len(name) > s.spillAt {
 		s.spill()
 	}
 	if s.f == nil {

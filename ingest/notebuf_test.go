@@ -53,22 +53,24 @@ func poisonPool() {
 	}
 }
 
-// TestReusedNoteBuffers checks that Parse gives the same pieces in recycled buffers
-// as in fresh ones, on the fixtures and the openttd-openmsx files.
-func TestReusedNoteBuffers(t *testing.T) {
-	inputs := map[string][]byte{}
-	for name, data := range fixtures() {
-		inputs[name] = data
-	}
+// reuseInputs are the fixtures and the openttd-openmsx files (named openttd-*), by name.
+func reuseInputs(t *testing.T) map[string][]byte {
+	inputs := fixtures()
 	for _, p := range openttdPaths() {
 		data, err := os.ReadFile(p)
 		if err != nil {
 			t.Fatal(err)
 		}
-		inputs[p] = data
+		inputs["openttd-"+filepath.Base(p)] = data
 	}
+	return inputs
+}
+
+// TestReusedNoteBuffers checks that Parse gives the same pieces in recycled buffers
+// as in fresh ones, on the fixtures and the openttd-openmsx files.
+func TestReusedNoteBuffers(t *testing.T) {
 	opts := DefaultParseOptions()
-	for name, data := range inputs {
+	for name, data := range reuseInputs(t) {
 		fresh, ferr := Parse(name, data, opts)
 		// copy out of the pool's buffers before poisoning them
 		for i := range fresh {
@@ -92,20 +94,7 @@ func TestReusedNoteBuffers(t *testing.T) {
 // does, and checks that the records are those of a scan that releases nothing.
 func TestReleaseDuringScan(t *testing.T) {
 	dir := t.TempDir()
-	for name, data := range fixtures() {
-		if err := os.WriteFile(filepath.Join(dir, name), data, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
-	for _, p := range openttdPaths() {
-		data, err := os.ReadFile(p)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if err := os.WriteFile(filepath.Join(dir, "openttd-"+filepath.Base(p)), data, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
+	fxWrite(t, dir, reuseInputs(t))
 	scan := func(release bool) (recs []FileRecord, notes [][]Note) {
 		err := Scan(context.Background(), []Source{{Path: dir}}, DefaultOptions(), func(r *Result) error {
 			recs = append(recs, r.Record)
