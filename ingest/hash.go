@@ -52,13 +52,15 @@ const (
 	keyDurMask  = 1<<keyPitchPos - 1
 )
 
-func packKey(n *Note) noteKey {
-	dur := uint64(max(n.EndTick-n.StartTick, 0))
-	r := min(dur, keyDurMask) | uint64(n.Pitch&0x7F)<<keyPitchPos
-	if n.Drum {
+func packKey(n *Note) noteKey { return packTicks(n.StartTick, n.EndTick, n.Pitch, n.Drum) }
+
+func packTicks(start, end int64, pitch uint8, drum bool) noteKey {
+	dur := uint64(max(end-start, 0))
+	r := min(dur, keyDurMask) | uint64(pitch&0x7F)<<keyPitchPos
+	if drum {
 		r |= 1 << keyDrumBit
 	}
-	return noteKey{n.StartTick, r}
+	return noteKey{start, r}
 }
 
 func (k noteKey) dur() int64   { return int64(k.rest & keyDurMask) }
@@ -93,6 +95,21 @@ const maxRunInsert = 16
 // hashPiece fills p.MusicalHash and p.TransposedHash, and returns the stats of the
 // piece's notes for the filter (see statsOf, which it must agree with).
 func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
+	keys := slices.Grow(h.keys[:0], len(p.Notes))
+	seconds := 0.0
+	for i := range p.Notes {
+		n := &p.Notes[i]
+		keys = append(keys, packKey(n))
+		seconds = max(seconds, n.End)
+	}
+	h.keys = keys
+	return h.hashKeys(p, keys, seconds)
+}
+
+// hashKeys is hashPiece given the packed keys of p's notes, in any order (it
+// reorders them in place), and the latest note end in seconds. Parse packs the keys
+// while it writes the notes (parseHashed), which saves reading the notes again.
+func (h *pieceHasher) hashKeys(p *Piece, keys []noteKey, seconds float64) pieceStats {
 	// Onsets are num*scale/den quarter notes (or seconds for SMPTE).
 	scale, den, unit := int64(1), int64(p.TicksPerQuarter), byte('q')
 	if p.SMPTEFPS > 0 {
@@ -101,13 +118,13 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	if den <= 0 {
 		den = 1
 	}
-	// One pass over the notes packs the keys in hash order, finds the lowest non-drum
-	// key and the greatest common divisor of den and every onset and duration.
+	// One pass over the keys puts them in hash order, finds the lowest non-drum key
+	// and the greatest common divisor of den and every onset and duration.
 	//
 	// Within one piece every note has the same denominator, so ordering by ticks orders
 	// by beat time too; the order is thus the same at any PPQ and under transposition.
-	// Parse delivers notes sorted by start tick, so each note is inserted into the run of
-	// notes that start with it; anything else gets a full sort.
+	// Parse delivers notes sorted by start tick, so each key is inserted into the run of
+	// keys that start with it; anything else gets a full sort.
 	//
 	// The onsets and durations are fractions over one denominator; dividing all of them
 	// and the denominator by their greatest common divisor gives the smallest common
@@ -115,23 +132,21 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	// numerators over it: an exact encoding without reducing each fraction. The divisor
 	// is found as its power of two (the lowest set bit of all values ORed) times its odd
 	// part, which a multiplication tests without dividing (see divisible).
-	keys := h.keys[:0]
 	minPitch := uint8(255)
 	st := noStats()
+	st.seconds = seconds
 	sorted := true
 	prev, run := int64(math.MinInt64), 0
 	ored := uint64(den)
 	odd := ored >> bits.TrailingZeros64(ored)
 	inv, lim := oddInverse(odd), math.MaxUint64/odd
-	for i := range p.Notes {
-		n := &p.Notes[i]
-		k := packKey(n)
-		st.seconds = max(st.seconds, n.End)
-		if n.Drum {
+	for i, k := range keys {
+		if k.drum() {
 			st.drums++
 		} else {
-			minPitch = min(minPitch, n.Pitch)
-			st.maxPitch = max(st.maxPitch, int(n.Pitch))
+			pitch := k.pitch()
+			minPitch = min(minPitch, pitch)
+			st.maxPitch = max(st.maxPitch, int(pitch))
 		}
 		on, ln := uint64(max(k.start*scale, 0)), uint64(max(k.dur()*scale, 0))
 		ored |= on | ln
@@ -145,22 +160,21 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 				inv, lim = oddInverse(odd), math.MaxUint64/odd
 			}
 		}
-		keys = append(keys, k)
 		if !sorted {
 			continue
 		}
 		switch {
 		case k.start > prev:
-			if len(keys)-1-run > maxRunInsert {
-				slices.SortFunc(keys[run:len(keys)-1], compareKeys)
+			if i-run > maxRunInsert {
+				slices.SortFunc(keys[run:i], compareKeys)
 			}
-			prev, run = k.start, len(keys)-1
+			prev, run = k.start, i
 		case k.start < prev:
 			sorted = false
-		case len(keys)-run > maxRunInsert:
+		case i+1-run > maxRunInsert:
 			// a long run: sorted when it ends
 		default:
-			j := len(keys) - 1
+			j := i
 			for j > run && keys[j-1].rest > k.rest {
 				keys[j] = keys[j-1]
 				j--
@@ -174,7 +188,6 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	case len(keys)-run > maxRunInsert:
 		slices.SortFunc(keys[run:], compareKeys)
 	}
-	h.keys = keys
 	shift := uint(bits.TrailingZeros64(ored))
 	g := odd << shift
 	inv = oddInverse(odd)
@@ -231,7 +244,7 @@ func (h *pieceHasher) hashPiece(p *Piece) pieceStats {
 	h.sha.Write(h.one[:])
 	sum = h.sha.Sum(h.sum[:0])
 	p.MusicalHash = hex.EncodeToString(sum[:hashLen])
-	st.notes = len(p.Notes)
+	st.notes = len(keys)
 	if st.maxPitch >= 0 {
 		st.minPitch = int(minPitch)
 	}

@@ -438,11 +438,17 @@ func boolInt(b bool) int {
 
 // emitSorted expands src into dst in the order of the group keys and ends from
 // tickSorter.order. It is emitter.put with the work of a new start done once per
-// group, all of whose notes start at one tick, and the cursor state in locals.
+// group, all of whose notes start at one tick, and the cursor state in locals. With
+// em.hashKeys it also packs each note's content hash key there (and keeps the latest
+// end in em.maxEnd), so hashing need not read the notes again.
 func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits uint, em *emitter) {
 	tm := em.tm
 	m := uint64(1)<<idxBits - 1
 	seg, zero := em.seg, 0
+	hk, maxEnd := em.hashKeys, em.maxEnd
+	if hk != nil {
+		hk = hk[:len(dst)]
+	}
 	started, startTick, startSec := em.started, em.startTick, em.startSec
 	out := 0
 	for _, k := range keys {
@@ -465,10 +471,15 @@ func emitSorted(dst []Note, src []rawNote, keys []uint64, ends []int32, idxBits 
 			endSec := tm.at(tm.near(seg, r.EndTick), r.EndTick)
 			ch := r.Channel & statusChannelMask
 			n := &dst[out]
-			out++
 			storeNote(n, r, startSec, endSec, ch, em.cur[ch])
+			if hk != nil {
+				hk[out] = packTicks(r.StartTick, r.EndTick, r.Pitch, ch == drumChannel)
+				maxEnd = max(maxEnd, endSec)
+			}
+			out++
 		}
 	}
+	em.maxEnd = maxEnd
 	em.seg, em.zero = seg, em.zero+zero
 	em.started, em.startTick, em.startSec = started, startTick, startSec
 	em.ended = false // the last end was not kept
@@ -599,6 +610,11 @@ type emitter struct {
 	pc    int
 	cur   [numChannels]uint8
 	zero  int
+	// hashKeys, when not nil, receives the content hash key of each note emitSorted
+	// writes, at the note's index (len(hashKeys) >= the notes); maxEnd is the latest
+	// end in seconds among them.
+	hashKeys []noteKey
+	maxEnd   float64
 
 	started            bool // startTick and startSec hold the last start
 	startTick, endTick int64

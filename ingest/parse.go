@@ -27,47 +27,61 @@ import (
 // most (a 48-byte Note per 3-byte running-status note-on, in a buffer rounded up to
 // its pool class by at most half; see Result.Release), usually under 8.
 func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
+	pieces, _, err := parse(name, data, opts, nil)
+	return pieces, err
+}
+
+// parseHashed is Parse that also fills each piece's content hashes with h, as
+// hashPiece does, and returns the stats of all the pieces' notes. It hashes while
+// the notes are written rather than in a pass of its own.
+func parseHashed(name string, data []byte, opts ParseOptions, h *pieceHasher) ([]Piece, pieceStats, error) {
+	return parse(name, data, opts, h)
+}
+
+// parse is Parse, hashing with h when it is not nil.
+func parse(name string, data []byte, opts ParseOptions, h *pieceHasher) ([]Piece, pieceStats, error) {
 	ps := parserPool.Get().(*parser)
 	defer ps.release()
 	ps.opts = opts
+	ps.hasher, ps.stats = h, noStats()
 	r := &ps.r
 	if err := r.Reset(name, data, opts.MaxEventsPerTrack); err != nil {
-		return nil, err
+		return nil, noStats(), err
 	}
-	h := r.Header()
-	if h.Format == format2 {
-		pieces := make([]Piece, 0, min(h.Tracks, len(data)/chunkHeaderLen+1))
+	hdr := r.Header()
+	if hdr.Format == format2 {
+		pieces := make([]Piece, 0, min(hdr.Tracks, len(data)/chunkHeaderLen+1))
 		for r.NextTrack() {
 			ps.begin()
 			ps.readTrack()
 			if r.Err() != nil {
 				break
 			}
-			p := ps.finish(h, r.Track())
+			p := ps.finish(hdr, r.Track())
 			t := len(ps.names) - 1
 			p.TrackNames = ps.names[t : t+1 : t+1]
 			pieces = append(pieces, p)
 		}
 		if err := r.Err(); err != nil {
 			releasePieces(pieces)
-			return nil, err
+			return nil, noStats(), err
 		}
 		if len(pieces) > 0 {
 			ps.fileWarnings(pieces[0].Warnings)
 		}
-		return pieces, nil
+		return pieces, ps.stats, nil
 	}
 	ps.begin()
 	for r.NextTrack() {
 		ps.readTrack()
 	}
 	if err := r.Err(); err != nil {
-		return nil, err
+		return nil, noStats(), err
 	}
-	p := ps.finish(h, 0)
+	p := ps.finish(hdr, 0)
 	p.TrackNames = ps.names
 	ps.fileWarnings(p.Warnings)
-	return []Piece{p}, nil
+	return []Piece{p}, ps.stats, nil
 }
 
 // parser holds the reusable state of one Parse call.
@@ -85,6 +99,8 @@ type parser struct {
 	end    int64
 	tm     TimeMap
 	sorter tickSorter
+	hasher *pieceHasher // hashes each piece as it is finished, when not nil
+	stats  pieceStats   // of the pieces hashed
 
 	badMeta                         int
 	runningBase, slackBase, eotBase int
@@ -106,6 +122,7 @@ func (ps *parser) release() {
 	}
 	ps.r = Reader{}
 	ps.names = nil
+	ps.hasher = nil
 	if cap(ps.pair.buf) > 1<<20 {
 		ps.pair.buf = nil
 	}
@@ -288,13 +305,25 @@ func (ps *parser) finish(h Header, index int) Piece {
 	ps.tm.build(&p)
 	em := emitter{tm: &ps.tm, progs: ps.progs}
 	notes := getNotes(len(pr.buf)) // every note is stored below
+	hs := ps.hasher
 	if keys, ends, idxBits, ok := ps.sorter.order(pr.buf, ps.bounds); ok {
+		if hs != nil {
+			hs.keys = slices.Grow(hs.keys[:0], len(notes))
+			em.hashKeys = hs.keys[:len(notes)]
+		}
 		emitSorted(notes, pr.buf, keys, ends, idxBits, &em)
+		p.Notes = notes
+		if hs != nil {
+			ps.stats.add(hs.hashKeys(&p, em.hashKeys, em.maxEnd))
+		}
 	} else {
 		mergeRuns(notes, pr.buf, ps.bounds, &em)
+		p.Notes = notes
+		if hs != nil {
+			ps.stats.add(hs.hashPiece(&p))
+		}
 	}
 	zero := em.zero
-	p.Notes = notes
 
 	w := p.Warnings
 	w.Add(WarnRetrigger, pr.retrigger)

@@ -281,7 +281,16 @@ func processEntry(e *entry, opts *Options, h *pieceHasher, buf *[]byte) *Result 
 	}
 	r.Record.Size = int64(len(data))
 	r.Record.SHA256 = fileSHA256(data)
-	pieces, err := Parse(e.path, data, opts.Parse)
+	// Without the drums filter, the notes are hashed as they are parsed; with it, the
+	// drum notes are dropped first and the rest hashed after.
+	hashed := !opts.Filter.DropDrums
+	var pieces []Piece
+	st := noStats()
+	if hashed {
+		pieces, st, err = parseHashed(e.path, data, opts.Parse, h)
+	} else {
+		pieces, err = Parse(e.path, data, opts.Parse)
+	}
 	if err != nil {
 		return skip(r, err)
 	}
@@ -305,10 +314,12 @@ func processEntry(e *entry, opts *Options, h *pieceHasher, buf *[]byte) *Result 
 	}
 	// The filter's stats come from the hashing pass, which reads every note anyway; a
 	// file the filter then skips is hashed for nothing, but skips are few.
-	had := opts.Filter.dropDrums(pieces)
-	st := noStats()
-	for i := range pieces {
-		st.add(h.hashPiece(&pieces[i]))
+	had := false
+	if !hashed {
+		had = opts.Filter.dropDrums(pieces)
+		for i := range pieces {
+			st.add(h.hashPiece(&pieces[i]))
+		}
 	}
 	err = opts.Filter.check(st, had)
 	rec.Notes, rec.Seconds = st.notes, st.seconds
