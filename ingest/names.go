@@ -5,96 +5,106 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"unicode/utf8"
 )
 
 // nameStore keeps the "dataset/path" names of the files that own a content hash,
 // which duplicate reasons quote. A corpus of a million files holds some 100 MB of
-// them, so past the first 256 KiB they go to an unlinked temporary file and
-// memory keeps 8 bytes a name; when no temporary file can be made, they stay in
-// memory. Names are read back only for duplicates. A small scan makes no file at
-// all (creating one costs about half a millisecond here).
+// them, so past the first 256 KiB they go to an unlinked temporary file; when no
+// temporary file can be made, or writing to it fails, they stay in memory. Each name
+// is known by a reference (its place and length, see nameRef) that the duplicate
+// indexes hold, so the store itself keeps nothing per name. Names are read back only
+// for duplicates. A small scan makes no file at all (creating one costs about half a
+// millisecond here).
 type nameStore struct {
 	// spillAt is the size of the names held in buf beyond which they move to a file;
 	// after a failed spill, never.
 	spillAt int
-	buf     []byte   // the names while f is nil
+	buf     []byte   // the names kept in memory
 	f       *os.File // the names once spilled
 	w       *bufio.Writer
-	size    int64   // bytes of names in buf or f
-	ends    []int64 // end offset of each name in buf or f
-	mem     []string
-	err     error // first write error to f: the names from then on are kept in mem
+	size    int64 // bytes of names in f
+	err     error // first write error to f: the names from then on are kept in buf
 }
 
 // spillNames is the default nameStore.spillAt.
 const spillNames = 256 << 10
 
-func newNameStore() *nameStore { return &nameStore{spillAt: spillNames} }
+// A name reference packs where a name is: bit 63 set for the file, clear for
+// memory; the offset above nameLenBits; the length below. Names are cut to
+// maxStoredName bytes (a path that long is not a real one).
+const (
+	nameInFile    = 1 << 63
+	nameLenBits   = 20
+	maxStoredName = 1<<nameLenBits - 1
+)
 
-// spill moves the names from buf to a new unlinked temporary file; on any failure
-// they stay in buf for the rest of the scan.
+// newNameStore makes an empty store that spills at spillNames bytes (tests change
+// namesSpillAt to put the names of a scan on disk).
+func newNameStore() *nameStore { return &nameStore{spillAt: namesSpillAt} }
+
+var namesSpillAt = spillNames
+
+// spill starts the temporary file for the names added from now on; on failure they
+// go on into buf for the rest of the scan.
 func (s *nameStore) spill() {
 	s.spillAt = math.MaxInt // one attempt
-	f, err := os.CreateTemp("", "relshard-names-*")
+	f, err := newScratchFile("relshard-names-*")
 	if err != nil {
 		return
 	}
-	if os.Remove(f.Name()) != nil {
-		// a system that cannot unlink an open file: keep the names in memory
-		// rather than leave a file behind after a crash
-		f.Close()
-		os.Remove(f.Name())
-		return
-	}
-	if _, err := f.Write(s.buf); err != nil {
-		f.Close()
-		return
-	}
-	s.f, s.w, s.buf = f, bufio.NewWriterSize(f, 32<<10), nil
+	// the references handed out so far point into buf, which stays as it is
+	s.f, s.w = f, bufio.NewWriterSize(f, 32<<10)
 }
 
-// add stores a name and returns its index.
-func (s *nameStore) add(name string) int32 {
-	i := int32(len(s.ends) + len(s.mem))
-	if s.err != nil {
-		s.mem = append(s.mem, name)
-		return i
+// add stores a name and returns its reference.
+func (s *nameStore) add(name string) uint64 {
+	if len(name) > maxStoredName {
+		name = cutName(name)
 	}
-	if s.f == nil && len(s.buf)+len(name) > s.spillAt {
+	if s.f == nil && s.err == nil && len(s.buf)+len(name) > s.spillAt {
 		s.spill()
 	}
-	if s.f == nil {
-		s.buf = append(s.buf, name...)
-	} else if _, err := s.w.WriteString(name); err != nil {
-		s.err = err
-		s.mem = append(s.mem, name)
-		return i
+	if s.f != nil && s.err == nil {
+		if _, err := s.w.WriteString(name); err == nil {
+			ref := nameInFile | uint64(s.size)<<nameLenBits | uint64(len(name))
+			s.size += int64(len(name))
+			return ref
+		} else {
+			s.err = err
+		}
 	}
-	s.size += int64(len(name))
-	s.ends = append(s.ends, s.size)
-	return i
+	ref := uint64(len(s.buf))<<nameLenBits | uint64(len(name))
+	s.buf = append(s.buf, name...)
+	return ref
 }
 
-// get returns the name of index i.
-func (s *nameStore) get(i int32) string {
-	if int(i) >= len(s.ends) {
-		return s.mem[int(i)-len(s.ends)]
-	}
-	start := int64(0)
-	if i > 0 {
-		start = s.ends[i-1]
-	}
-	if s.f == nil {
-		return string(s.buf[start:s.ends[i]])
+// get returns the name of a reference from add.
+func (s *nameStore) get(ref uint64) string {
+	n := int64(ref & maxStoredName)
+	off := int64(ref&^nameInFile) >> nameLenBits
+	if ref&nameInFile == 0 {
+		return string(s.buf[off : off+n])
 	}
 	if err := s.w.Flush(); err != nil {
-		return fmt.Sprintf("file %d of the scan (name lost: %v)", i+1, err)
+		return fmt.Sprintf("(name lost: %v)", err)
 	}
-	b := make([]byte, s.ends[i]-start)
-	if _, err := s.f.ReadAt(b, start); err != nil {
-		return fmt.Sprintf("file %d of the scan (name lost: %v)", i+1, err)
+	b := make([]byte, n)
+	if _, err := s.f.ReadAt(b, off); err != nil {
+		return fmt.Sprintf("(name lost: %v)", err)
 	}
 	return string(b)
+}
+
+// cutName shortens a name to at most maxStoredName bytes, at a character boundary,
+// marking the cut with an ellipsis.
+func cutName(name string) string {
+	const mark = "…"
+	end := maxStoredName - len(mark)
+	for end > 0 && !utf8.RuneStart(name[end]) {
+		end--
+	}
+	return name[:end] + mark
 }
 
 // close releases the temporary file.

@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"cmp"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -149,8 +150,9 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 	}()
 
 	d := newDeduper(opts.KeepDuplicates)
-	defer d.names.close()
-	names := recordNames{}
+	defer d.close()
+	names := recordNames{newKeyTable()}
+	defer names.close()
 	pending := map[int]*Result{}
 	next := 0
 	var stopErr error
@@ -168,6 +170,11 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 			next++
 			names.check(r)
 			d.check(r)
+			if err := cmp.Or(names.err, d.err()); err != nil {
+				stopErr = fmt.Errorf("scan: %w", err)
+				cancel()
+				break
+			}
 			err := yield(r)
 			<-inFlight // only now, so a slow yield holds the pipeline back
 			if err != nil {
@@ -203,21 +210,22 @@ func Scan(ctx context.Context, sources []Source, opts Options, yield func(*Resul
 // an archive, or two sources of one dataset name holding the same relative path. The
 // later input keeps a record of its own, skipped with ErrRepeatedPath under the name
 // "PATH (repeat N)", so every input is still accounted for and no key is given twice.
-// A key is kept as 16 bytes of its SHA-256, so memory stays small per input file.
-type recordNames map[[16]byte]int
+// A key is kept as 16 bytes of its SHA-256, with the number of inputs that had it,
+// in a keyTable.
+type recordNames struct{ *keyTable }
 
 func (n recordNames) check(r *Result) {
 	rec := &r.Record
 	if rec.Path == "" {
 		return // a record of a whole source (a damaged archive): named by its source, no pieces
 	}
-	key := func(path string) [16]byte {
+	key := func(path string) dupKey {
 		sum := sha256.Sum256([]byte(rec.Dataset + "\x00" + path))
-		return [16]byte(sum[:16])
+		return dupKey(sum[:keyLen])
 	}
 	k := key(rec.Path)
-	count := n[k]
-	n[k] = count + 1
+	count, _ := n.get(k)
+	n.set(k, count+1)
 	if count == 0 {
 		return
 	}
@@ -225,11 +233,11 @@ func (n recordNames) check(r *Result) {
 	for {
 		count++
 		rec.Path = fmt.Sprintf("%s (repeat %d)", orig, count)
-		if n[key(rec.Path)] == 0 {
+		if !has(n.keyTable, key(rec.Path)) {
 			break
 		}
 	}
-	n[key(rec.Path)] = 1
+	n.set(key(rec.Path), 1)
 	r.Err = fmt.Errorf("%s: %s/%s: %w", rec.Path, rec.Dataset, orig, ErrRepeatedPath)
 	rec.Status, rec.Reason, rec.DuplicateOf, rec.DuplicateKind, rec.Pieces, rec.Notes = StatusSkipped, r.Err.Error(), "", "", 0, 0
 	r.Pieces = nil
@@ -383,13 +391,17 @@ func skip(r *Result, err error) *Result {
 type deduper struct {
 	keep bool
 	// The hash indexes map a hash (its first 16 bytes) to the first kept file that has
-	// it, as an index into names: kept per input file for the whole run, so compact.
-	exact, musical, transpos map[dupKey]int32
+	// it, as a reference into names. They are kept for the whole run, on disk past a
+	// few thousand entries (see keyTable).
+	exact, musical, transpos *keyTable
 	names                    *nameStore // "dataset/path" of the files the indexes point at
 }
 
 // dupKey is the first 16 bytes of a hex SHA-256 (or of the SHA-256 of any other key).
-type dupKey [16]byte
+type dupKey [keyLen]byte
+
+// keyLen is the length of a dupKey.
+const keyLen = 16
 
 func keyOf(hexHash string) dupKey {
 	var k dupKey
@@ -403,7 +415,24 @@ func keyOf(hexHash string) dupKey {
 }
 
 func newDeduper(keep bool) *deduper {
-	return &deduper{keep: keep, exact: map[dupKey]int32{}, musical: map[dupKey]int32{}, transpos: map[dupKey]int32{}, names: newNameStore()}
+	return &deduper{keep: keep, exact: newKeyTable(), musical: newKeyTable(), transpos: newKeyTable(), names: newNameStore()}
+}
+
+// err is the first I/O error of the indexes' files.
+func (d *deduper) err() error {
+	for _, t := range []*keyTable{d.exact, d.musical, d.transpos} {
+		if t.err != nil {
+			return t.err
+		}
+	}
+	return nil
+}
+
+func (d *deduper) close() {
+	d.exact.close()
+	d.musical.close()
+	d.transpos.close()
+	d.names.close()
 }
 
 // kindRank orders duplicate kinds from finest to coarsest.
@@ -415,13 +444,13 @@ func (d *deduper) check(r *Result) {
 		return
 	}
 	exact := keyOf(rec.SHA256)
-	if first, ok := d.exact[exact]; ok {
+	if first, ok := d.exact.get(exact); ok {
 		d.mark(r, d.names.get(first), DupExact)
 		return
 	}
 	self := d.names.add(rec.Key())
-	d.exact[exact] = self
-	of := int32(-1)
+	d.exact.set(exact, self)
+	of, found := uint64(0), false
 	var kind DuplicateKind
 	all, any := true, false
 	for i := range r.Pieces {
@@ -431,17 +460,17 @@ func (d *deduper) check(r *Result) {
 		}
 		any = true
 		k := DupMusical
-		first, ok := d.musical[keyOf(p.MusicalHash)]
+		first, ok := d.musical.get(keyOf(p.MusicalHash))
 		if !ok {
 			k = DupTransposed
-			first, ok = d.transpos[keyOf(p.TransposedHash)]
+			first, ok = d.transpos.get(keyOf(p.TransposedHash))
 		}
 		if !ok {
 			all = false
 			continue
 		}
-		if of < 0 {
-			of = first
+		if !found {
+			of, found = first, true
 		}
 		if kind == "" || kindRank[k] > kindRank[kind] {
 			kind = k
@@ -452,11 +481,11 @@ func (d *deduper) check(r *Result) {
 		if len(p.Notes) == 0 {
 			continue
 		}
-		if k := keyOf(p.MusicalHash); !hasKey(d.musical, k) {
-			d.musical[k] = self
+		if k := keyOf(p.MusicalHash); !has(d.musical, k) {
+			d.musical.set(k, self)
 		}
-		if k := keyOf(p.TransposedHash); !hasKey(d.transpos, k) {
-			d.transpos[k] = self
+		if k := keyOf(p.TransposedHash); !has(d.transpos, k) {
+			d.transpos.set(k, self)
 		}
 	}
 	if any && all {
@@ -464,8 +493,8 @@ func (d *deduper) check(r *Result) {
 	}
 }
 
-func hasKey(m map[dupKey]int32, k dupKey) bool {
-	_, ok := m[k]
+func has(t *keyTable, k dupKey) bool {
+	_, ok := t.get(k)
 	return ok
 }
 

@@ -2,14 +2,13 @@ package ingest
 
 import (
 	"bufio"
-	"bytes"
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 )
 
@@ -164,22 +163,12 @@ func enumerate(ctx context.Context, src Source, kind sourceKind, opts *Options, 
 // never reading more than max+1 bytes (the file may grow while read).
 func fileLoader(path string, max int64) func([]byte) ([]byte, error) {
 	return func(buf []byte) ([]byte, error) {
-		f, err := os.Open(path)
+		f, size, err := openRegular(path, max)
 		if err != nil {
 			return nil, err
 		}
 		defer f.Close()
-		fi, err := f.Stat()
-		if err != nil {
-			return nil, err
-		}
-		if !fi.Mode().IsRegular() {
-			return nil, ErrSpecialEntry
-		}
-		if fi.Size() > max {
-			return nil, fmt.Errorf("%d bytes, limit %s: %w", fi.Size(), sizeString(max), ErrTooLarge)
-		}
-		data, err := readCappedInto(f, buf, max, fi.Size(), func() error {
+		data, err := readCappedInto(f, buf, max, size, func() error {
 			return fmt.Errorf("grew past the limit %s while read: %w", sizeString(max), ErrTooLarge)
 		})
 		if err != nil {
@@ -189,12 +178,29 @@ func fileLoader(path string, max int64) func([]byte) ([]byte, error) {
 	}
 }
 
-// folderFile is one file found in a folder walk, with its path relative to the root.
-type folderFile struct {
-	rel, abs string
-	archive  sourceKind // kindFile, or the kind of an archive read in place
-	err      error
+// openRegular opens a regular file of at most max bytes and returns its size.
+func openRegular(path string, max int64) (*os.File, int64, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, 0, err
+	}
+	fi, err := f.Stat()
+	switch {
+	case err != nil:
+	case !fi.Mode().IsRegular():
+		err = ErrSpecialEntry
+	case fi.Size() > max:
+		err = fmt.Errorf("%d bytes, limit %s: %w", fi.Size(), sizeString(max), ErrTooLarge)
+	}
+	if err != nil {
+		f.Close()
+		return nil, 0, err
+	}
+	return f, fi.Size(), nil
 }
+
+// tagBad is the nameSort tag of a folder entry that is an error (see folderWalk.bad).
+const tagBad = 255
 
 // enumerateFolder walks a folder recursively, following symbolic links to folders at
 // most once each (so link loops end), and emits its MIDI files sorted by relative path.
@@ -202,7 +208,16 @@ type folderFile struct {
 // their entries named "archive/entry". Other files are ignored; an unreadable subfolder
 // or a broken link with a MIDI name is an entry with its error.
 func enumerateFolder(ctx context.Context, root string, base entry, opts *Options, emit emitFunc) error {
-	var files []folderFile
+	// The names are sorted in bounded memory (nameSort), each tagged with its kind;
+	// the few entries that are errors keep their error here, by name.
+	names := newNameSort()
+	bad := map[string]error{}
+	addBad := func(rel string, err error) {
+		if _, dup := bad[rel]; !dup {
+			bad[rel] = err
+			names.add(rel, tagBad)
+		}
+	}
 	visited := map[string]bool{}
 	var walk func(dir, rel string)
 	walk = func(dir, rel string) {
@@ -214,7 +229,7 @@ func enumerateFolder(ctx context.Context, root string, base entry, opts *Options
 		}
 		des, err := os.ReadDir(dir)
 		if err != nil {
-			files = append(files, folderFile{rel: relOrDot(rel), err: fmt.Errorf("read folder: %w", err)})
+			addBad(relOrDot(rel), fmt.Errorf("read folder: %w", err))
 		}
 		for _, de := range des {
 			abs := filepath.Join(dir, de.Name())
@@ -227,7 +242,7 @@ func enumerateFolder(ctx context.Context, root string, base entry, opts *Options
 				fi, err := os.Stat(abs)
 				if err != nil {
 					if isMIDIName(de.Name()) {
-						files = append(files, folderFile{rel: r, err: fmt.Errorf("broken link: %w", err)})
+						addBad(r, fmt.Errorf("broken link: %w", err))
 					}
 					continue
 				}
@@ -238,43 +253,36 @@ func enumerateFolder(ctx context.Context, root string, base entry, opts *Options
 			case mode.IsDir():
 				walk(abs, r)
 			case isArchive && mode.IsRegular():
-				files = append(files, folderFile{rel: r, abs: abs, archive: ak})
+				names.add(r, byte(ak))
 			case !isMIDIName(de.Name()):
 			case mode.IsRegular():
-				files = append(files, folderFile{rel: r, abs: abs, archive: kindFile})
+				names.add(r, byte(kindFile))
 			default:
-				files = append(files, folderFile{rel: r, err: ErrSpecialEntry})
+				addBad(r, ErrSpecialEntry)
 			}
 		}
 	}
 	walk(root, "")
-	slices.SortStableFunc(files, func(a, b folderFile) int { return strings.Compare(a.rel, b.rel) })
-	for i, f := range files {
-		// Dropped once taken: the list is held for the whole walk, and its names,
-		// the most of it, can go as the scan passes them.
-		files[i] = folderFile{}
+	return names.each(func(rel string, tag byte) error {
 		e := base
-		e.path = f.rel
-		e.err = f.err
-		var err error
-		switch {
-		case f.err != nil:
-			err = emit(&e)
-		case f.archive == kindZip:
+		e.path = rel
+		// the walk joined the same names with the separator
+		abs := filepath.Join(root, filepath.FromSlash(rel))
+		switch k := sourceKind(tag); {
+		case tag == tagBad:
+			e.err = bad[rel]
+			return emit(&e)
+		case k == kindZip:
 			e.path += "/"
-			err = enumerateZip(ctx, f.abs, e, opts, emit)
-		case f.archive == kindTar || f.archive == kindTarGz:
+			return enumerateZip(ctx, abs, e, opts, emit)
+		case k == kindTar || k == kindTarGz:
 			e.path += "/"
-			err = enumerateTar(ctx, f.abs, f.archive == kindTarGz, e, opts, emit)
+			return enumerateTar(ctx, abs, k == kindTarGz, e, opts, emit)
 		default:
-			e.load = fileLoader(f.abs, opts.MaxFileSize)
-			err = emit(&e)
+			e.load = fileLoader(abs, opts.MaxFileSize)
+			return emit(&e)
 		}
-		if err != nil {
-			return err
-		}
-	}
-	return nil
+	})
 }
 
 // archiveKind reports whether a file name is that of an archive read in place.
@@ -306,32 +314,41 @@ const maxListSize = 256 << 20
 // listed file, sorted by the path as written. Every listed path is an input, whatever
 // its extension, once however often it is listed; a name ending in .gz is decompressed.
 func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) error {
-	data, err := fileLoader(listPath, maxListSize)(nil)
+	f, _, err := openRegular(listPath, maxListSize)
 	if err != nil {
 		e := base
 		e.err = fmt.Errorf("read path list: %w", err)
 		return emit(&e)
 	}
+	defer f.Close()
 	dir := filepath.Dir(listPath)
-	var paths []string
-	sc := bufio.NewScanner(bytes.NewReader(data))
+	// The paths are sorted in bounded memory (nameSort), read line by line within
+	// the list's size cap (the file may grow while read).
+	names := newNameSort()
+	lr := &io.LimitedReader{R: f, N: maxListSize + 1}
+	sc := bufio.NewScanner(lr)
 	sc.Buffer(nil, 1<<20)
 	for sc.Scan() {
 		line := strings.TrimSpace(sc.Text())
 		if line == "" || strings.HasPrefix(line, "#") {
 			continue
 		}
-		paths = append(paths, line)
+		names.add(line, 0)
 	}
 	var scanErr error
-	if err := sc.Err(); err != nil {
+	switch err := sc.Err(); {
+	case err != nil:
 		scanErr = fmt.Errorf("read path list: %w", err)
+	case lr.N == 0:
+		scanErr = fmt.Errorf("read path list: grew past the limit %s while read: %w", sizeString(maxListSize), ErrTooLarge)
 	}
-	slices.Sort(paths)
-	// A path listed twice is one input file: one record, not a copy of itself.
-	paths = slices.Compact(paths)
-	for i, p := range paths {
-		paths[i] = "" // the names go as the scan passes them
+	prev, first := "", true
+	err = names.each(func(p string, _ byte) error {
+		// A path listed twice is one input file: one record, not a copy of itself.
+		if !first && p == prev {
+			return nil
+		}
+		prev, first = p, false
 		e := base
 		e.path = p
 		abs := p
@@ -339,9 +356,10 @@ func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) er
 			abs = filepath.Join(dir, p)
 		}
 		e.load = fileLoader(abs, opts.MaxFileSize)
-		if err := emit(&e); err != nil {
-			return err
-		}
+		return emit(&e)
+	})
+	if err != nil {
+		return err
 	}
 	if scanErr != nil {
 		e := base
