@@ -112,16 +112,17 @@ func BenchmarkKeyTable(b *testing.B) {
 func TestScanIndexesOnDisk(t *testing.T) {
 	defer func(k, n, c int) { tableSpillAt, namesSpillAt, sortChunkAt = k, n, c }(tableSpillAt, namesSpillAt, sortChunkAt)
 	tableSpillAt, namesSpillAt, sortChunkAt = 0, 0, 1
-	t.Run("duplicates", TestScanDuplicates)
-	t.Run("across sources", TestScanDuplicatesAcrossSources)
-	t.Run("format 2", TestScanFormat2Duplicates)
-	t.Run("repeated entry names", TestRepeatedEntryNames)
-	t.Run("repeated paths", TestRepeatedPathAcrossSources)
-	t.Run("deterministic", TestScanDeterministic)
-	t.Run("mixed folder", TestScanMixedFolder)
-	t.Run("symlink loop", TestFolderSymlinkLoop)
-	t.Run("list", TestListSource)
-	t.Run("list repeated path", TestListSourceRepeatedPath)
-	t.Run("hostile corpus", TestHostileCorpusScan)
-	t.Run("tar sorted", TestTarSortedMultiPass)
+	for _, tt := range []struct {
+		name string
+		test func(*testing.T)
+	}{
+		{"duplicates", TestScanDuplicates}, {"across sources", TestScanDuplicatesAcrossSources},
+		{"format 2", TestScanFormat2Duplicates}, {"repeated entry names", TestRepeatedEntryNames},
+		{"repeated paths", TestRepeatedPathAcrossSources}, {"deterministic", TestScanDeterministic},
+		{"mixed folder", TestScanMixedFolder}, {"symlink loop", TestFolderSymlinkLoop},
+		{"list", TestListSource}, {"list repeated path", TestListSourceRepeatedPath},
+		{"hostile corpus", TestHostileCorpusScan}, {"tar sorted", TestTarSortedMultiPass},
+	} {
+		t.Run(tt.name, tt.test)
+	}
 }
