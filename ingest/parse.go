@@ -27,19 +27,14 @@ import (
 // most (a 48-byte Note per 3-byte running-status note-on, in a buffer rounded up to
 // its pool class by at most half; see Result.Release), usually under 8.
 func Parse(name string, data []byte, opts ParseOptions) ([]Piece, error) {
-	pieces, _, err := parse(name, data, opts, nil)
+	pieces, _, err := parseHashed(name, data, opts, nil)
 	return pieces, err
 }
 
-// parseHashed is Parse that also fills each piece's content hashes with h, as
-// hashPiece does, and returns the stats of all the pieces' notes. It hashes while
-// the notes are written rather than in a pass of its own.
+// parseHashed is Parse that, with h not nil, also fills each piece's content hashes
+// with h, as hashPiece does, and returns the stats of all the pieces' notes. It
+// hashes while the notes are written rather than in a pass of its own.
 func parseHashed(name string, data []byte, opts ParseOptions, h *pieceHasher) ([]Piece, pieceStats, error) {
-	return parse(name, data, opts, h)
-}
-
-// parse is Parse, hashing with h when it is not nil.
-func parse(name string, data []byte, opts ParseOptions, h *pieceHasher) ([]Piece, pieceStats, error) {
 	ps := parserPool.Get().(*parser)
 	defer ps.release()
 	ps.opts = opts
