@@ -199,7 +199,8 @@ func openRegular(path string, max int64) (*os.File, int64, error) {
 	return f, fi.Size(), nil
 }
 
-// tagBad is the nameSort tag of a folder entry that is an error (see folderWalk.bad).
+// tagBad is the nameSort tag of a folder entry that is an error, kept by name in
+// enumerateFolder.
 const tagBad = 255
 
 // enumerateFolder walks a folder recursively, following symbolic links to folders at
