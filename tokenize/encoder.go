@@ -67,12 +67,12 @@ type Encoder struct {
 	vocab    *Vocab
 	variants []Variant
 	clock    clock
+	ticks    tickSteps // of the grid piece being encoded
 	// dropDrums is cfg.Drums == DrumsDrop, compared once instead of per note.
 	dropDrums bool
 
 	pnotes []pnote
 	offs   []uint64
-	keys   []uint64
 	gnotes []gnote
 	bars   []barInfo
 	marks  []barMark // of the grid stream last encoded
@@ -191,7 +191,7 @@ type cutState struct {
 	inst     Token // last inst token
 	prevTime int32 // time and ms after the last token
 	prevMS   int32
-	velAt    int // stream index of vel (performance): look-backs stop there
+	velDone  int // stream index up to which look-backs have been (performance): they stop there
 }
 
 // cut yields the windows of stream s. With inPlace (the encoder's own stream) and a
@@ -313,12 +313,15 @@ func (e *Encoder) startable(id int32) bool {
 func (e *Encoder) lastVelocity(st *cutState, s []Token, start int) {
 	st.prevTime, st.prevMS = s[start-1].Time, s[start-1].MS
 	lo, hi := e.vocab.velBase, e.vocab.velBase+int32(e.cfg.VelocityBins)
-	for i := start - 1; i >= st.velAt; i-- {
+	// What lies before velDone was looked at for an earlier cut: st.vel is the latest
+	// set-velocity there, so each token is looked at once however rare they are.
+	for i := start - 1; i >= st.velDone; i-- {
 		if id := s[i].ID; id >= lo && id < hi {
-			st.vel, st.velAt = s[i], i
-			return
+			st.vel = s[i]
+			break
 		}
 	}
+	st.velDone = start
 }
 
 // prefix appends the state a window starting at s[start] needs and returns the index

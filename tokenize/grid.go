@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"fmt"
 	"math"
+	"math/bits"
 	"slices"
 
 	"github.com/relshard/relshard/ingest"
@@ -54,14 +55,38 @@ type barMark struct {
 // maxTick keeps tick arithmetic far from int64 overflow.
 const maxTick = 1 << 40
 
-// stepOf maps a tick to the nearest grid step.
+// stepOf maps a tick (0..maxTick) to the nearest grid step.
 func (e *Encoder) stepOf(tick int64) int64 {
-	g := int64(e.cfg.GridPerQuarter)
 	if e.clock.smpte > 0 {
-		return int64(math.Round(float64(tick) / e.clock.smpte * 2 * float64(g)))
+		return int64(math.Round(float64(tick) / e.clock.smpte * 2 * float64(e.cfg.GridPerQuarter)))
 	}
-	tpq := int64(e.clock.tpq)
-	return (tick*g*2 + tpq) / (2 * tpq)
+	return e.ticks.step(tick)
+}
+
+// tickSteps maps the ticks of a metric piece to grid steps: step = (tick*2g + tpq) /
+// 2tpq for g steps per quarter, rounding half up. It divides through a multiply by
+// the reciprocal: a 64-bit division costs several times as much, and there are two
+// per grid note.
+type tickSteps struct {
+	mul, add uint64 // 2g, tpq
+	d, m     uint64 // divisor 2tpq (at least 2), floor((2^64-1)/d)
+}
+
+func newTickSteps(g, tpq uint64) tickSteps {
+	return tickSteps{mul: 2 * g, add: tpq, d: 2 * tpq, m: math.MaxUint64 / (2 * tpq)}
+}
+
+// step is the step of tick.
+func (t *tickSteps) step(tick int64) int64 { return t.quo(uint64(tick)*t.mul + t.add) }
+
+// quo is x/d. m undershoots 2^64/d by less than one, so for x < 2^63 the high word
+// of x*m is the quotient or one below it; the remainder tells which.
+func (t *tickSteps) quo(x uint64) int64 {
+	q, _ := bits.Mul64(x, t.m)
+	if x-q*t.d >= t.d {
+		q++
+	}
+	return int64(q)
 }
 
 // msOfStep is the time of a grid step through the piece's tempo map.
@@ -85,10 +110,15 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 		return dst, st, fmt.Errorf("encode: %w: ticks per quarter %d", ErrBadPiece, p.TicksPerQuarter)
 	}
 	e.clock.reset(p)
+	metric := e.clock.smpte == 0
+	if metric {
+		e.ticks = newTickSteps(uint64(e.cfg.GridPerQuarter), uint64(e.clock.tpq)) // tpq is at least 1
+	}
 	notes := e.gnotes[:0]
 	maxDur := int64(e.cfg.MaxDurationSteps)
 	sorted := true
-	lastTick, lastStep := int64(-1), int64(0) // notes of a chord share their start
+	// Notes of a chord share their start, and often their end.
+	lastTick, lastStep, lastEndTick, lastEndStep := int64(-1), int64(0), int64(-1), int64(0)
 	for i := range p.Notes {
 		n := &p.Notes[i]
 		if n.Drum && e.dropDrums {
@@ -110,10 +140,23 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			return dst, st, fmt.Errorf("encode: %w: note %d has ticks %d..%d", ErrBadPiece, i, n.StartTick, n.EndTick)
 		}
 		if n.StartTick != lastTick {
-			lastTick, lastStep = n.StartTick, e.stepOf(n.StartTick)
+			lastTick = n.StartTick
+			if metric { // stepOf is too big to be inlined
+				lastStep = e.ticks.step(n.StartTick)
+			} else {
+				lastStep = e.stepOf(n.StartTick)
+			}
+		}
+		if n.EndTick != lastEndTick {
+			lastEndTick = n.EndTick
+			if metric {
+				lastEndStep = e.ticks.step(n.EndTick)
+			} else {
+				lastEndStep = e.stepOf(n.EndTick)
+			}
 		}
 		s := lastStep
-		d := e.stepOf(n.EndTick) - s
+		d := lastEndStep - s
 		if d < 1 {
 			d = 1
 			st.Lengthened++
@@ -155,6 +198,7 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	meterID := voc.meterID[[2]int{4, 4}]
 	barLen := int64(4 * e.cfg.GridPerQuarter)
 	prevMeter, prevTempo := int32(-1), int32(-1)
+	lastUS, tempoID := math.NaN(), int32(0)
 	curInst := int16(-1)
 	var barStart int64
 	mi, ni := 0, 0
@@ -187,8 +231,10 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			lastMeter = Token{ID: meterID, Time: bt, MS: bms, Pitch: -1, Inst: -1}
 			prevMeter = meterID
 		}
-		us := e.clock.usPerQuarterAt(float64(barStart) * e.clock.tpq / float64(e.cfg.GridPerQuarter))
-		tempoID := voc.tempoBase + int32(voc.tempoBin(60e6/us))
+		// The tempo bin takes logarithms; most bars keep the tempo of the one before.
+		if us := e.clock.usPerQuarterAt(float64(barStart) * e.clock.tpq / float64(e.cfg.GridPerQuarter)); us != lastUS {
+			lastUS, tempoID = us, voc.tempoBase+int32(voc.tempoBin(60e6/us))
+		}
 		if tempoID != prevTempo {
 			dst = put(dst, tempoID, bt, bms, -1, -1)
 			lastTempo = Token{ID: tempoID, Time: bt, MS: bms, Pitch: -1, Inst: -1}
@@ -205,17 +251,11 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 			for h < len(notes) && notes[h].step == s {
 				h++
 			}
-			if cap(e.keys) < h-ni { // stored back only when it grows, as in emitGroup
-				e.keys = make([]uint64, 0, 2*(h-ni))
-			}
-			keys := e.keys[:h-ni]
-			for i, g := range notes[ni:h] {
-				keys[i] = g.key
-			}
+			group := notes[ni:h]
 			ni = h
-			sortKeys(keys)
-			for _, k := range keys {
-				inst, pitch, dur, vel := unpackGrid(k)
+			sortGroup(group)
+			for i := range group {
+				inst, pitch, dur, vel := unpackGrid(group[i].key)
 				if inst != curInst {
 					id := instID(voc, inst)
 					dst = put(dst, id, t, ms, -1, inst)
@@ -237,4 +277,22 @@ func (e *Encoder) encodeGrid(p *ingest.Piece, v Variant, dst []Token) ([]Token, 
 	dst = put(dst, EndID, last.Time, last.MS, -1, -1)
 	st.Tokens = len(dst) - start
 	return dst, st, nil
+}
+
+// smallSort is the group size up to which groups are insertion-sorted.
+const smallSort = 24
+
+// sortGroup sorts the notes of one onset (all of one step) by key, in place:
+// insertion sort for the usual few notes, the standard library's sort for big
+// groups. Notes of equal keys are equal, so the order among them does not matter.
+func sortGroup(g []gnote) {
+	if len(g) > smallSort {
+		slices.SortFunc(g, func(a, b gnote) int { return cmp.Compare(a.key, b.key) })
+		return
+	}
+	for i := 1; i < len(g); i++ {
+		for j := i; j > 0 && g[j].key < g[j-1].key; j-- {
+			g[j], g[j-1] = g[j-1], g[j]
+		}
+	}
 }

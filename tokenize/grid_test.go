@@ -1,6 +1,7 @@
 package tokenize
 
 import (
+	"math/rand/v2"
 	"strings"
 	"testing"
 
@@ -148,5 +149,35 @@ func TestGridTokenMS(t *testing.T) {
 		"pitch.60@2000ms dur.12@2000ms vel.20@2000ms pos.12@3000ms pitch.62@3000ms dur.12@3000ms vel.20@3000ms end@3000ms"
 	if g := strings.Join(got, " "); g != want {
 		t.Errorf("got  %s\nwant %s", g, want)
+	}
+}
+
+// TestTickSteps checks the reciprocal division of tickSteps against the plain
+// rounding division, at the ends of the tick range and on random ticks, for the
+// divisions and grid resolutions a file can have.
+func TestTickSteps(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	for range 2000 {
+		tpq := uint64(1 + rng.IntN(1<<15))
+		if rng.IntN(4) == 0 {
+			tpq = uint64([]int{1, 2, 3, 24, 96, 480, 960, 32767, 1 << 15}[rng.IntN(9)])
+		}
+		g := uint64(1 + rng.IntN(96))
+		ts := newTickSteps(g, tpq)
+		for k := range 200 {
+			tick := rng.Int64N(maxTick + 1)
+			switch k {
+			case 0:
+				tick = 0
+			case 1:
+				tick = maxTick
+			case 2:
+				tick = int64(tpq) // one quarter
+			}
+			want := (tick*int64(g)*2 + int64(tpq)) / (2 * int64(tpq))
+			if got := ts.step(tick); got != want {
+				t.Fatalf("tpq %d, grid %d, tick %d: step %d, want %d", tpq, g, tick, got, want)
+			}
+		}
 	}
 }

@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"fmt"
 	"math"
+	"math/bits"
 	"slices"
 
 	"github.com/relshard/relshard/ingest"
@@ -16,6 +17,7 @@ type pnote struct {
 	vel     uint8 // bin
 	drum    bool
 	inst    int16
+	slot    uint8 // 2*pitch, plus one for a hit: the note's bit in perfOut.keys
 }
 
 // Pending note-offs are packed in one integer each, so that integer order is the
@@ -30,9 +32,6 @@ func packOff(step int64, pitch uint8, inst int16) uint64 {
 	return uint64(step)<<offStepShift | uint64(pitch)<<offPitchShift | uint64(uint16(inst))
 }
 
-// smallSort is the group size up to which groups are insertion-sorted.
-const smallSort = 24
-
 // Events at one instant come in this order: note-offs of notes that began earlier
 // (by key), then note-ons and hits (by key, a note before a hit of the same key),
 // each after a set-velocity when the bin changes, then note-offs of notes that began
@@ -46,9 +45,13 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 	o, d, q := e.startPerformance(v, dst)
 	// The next note is quantized straight into the slot after the group, so it is
 	// never copied: a note of the next onset then moves to the group's start.
+	// quantize stores every field, so the slot is not cleared first.
 	group := e.pnotes[:0]
 	for i := range p.Notes {
-		group = append(group, pnote{})
+		if len(group) == cap(group) {
+			group = slices.Grow(group, 1)
+		}
+		group = group[:len(group)+1]
 		pn := &group[len(group)-1]
 		switch e.quantize(&p.Notes[i], &q, &st, pn) {
 		case qSkip:
@@ -71,6 +74,7 @@ func (e *Encoder) encodePerformance(p *ingest.Piece, v Variant, dst []Token) ([]
 			group[0] = group[len(group)-1]
 			group = group[:1]
 		}
+		o.add(group, len(group)-1)
 	}
 	e.pnotes = group
 	return e.finishPerformance(&o, d, group, &st)
@@ -82,7 +86,8 @@ func (e *Encoder) startPerformance(v Variant, dst []Token) (perfOut, []Token, qu
 	voc := e.vocab
 	o := perfOut{start: len(dst), maxSteps: int64(voc.shiftSteps), shiftMS: int64(e.cfg.ShiftMS),
 		offq: e.offs[:cap(e.offs)], curVel: -1, shiftBase: voc.shiftBase, offBase: voc.offBase}
-	q := quantizer{scale: 1000 * v.Stretch / float64(e.cfg.ShiftMS), transpose: v.Transpose, lastStart: math.NaN()}
+	q := quantizer{scale: 1000 * v.Stretch / float64(e.cfg.ShiftMS), shiftMS: float64(e.cfg.ShiftMS),
+		transpose: v.Transpose, lastStart: math.NaN()}
 	return o, put(dst, BeginID, 0, 0, -1, -1), q
 }
 
@@ -112,6 +117,7 @@ func (e *Encoder) encodePerformanceUnsorted(p *ingest.Piece, v Variant, dst []To
 			}
 			g = h
 		}
+		o.add(notes[g:], h-g)
 	}
 	return e.finishPerformance(&o, d, notes[g:], &st)
 }
@@ -133,11 +139,12 @@ func (e *Encoder) quantize(n *ingest.Note, q *quantizer, st *Stats, out *pnote) 
 			return qSkip
 		}
 		on := n.Start * scale
-		if !(on >= 0) || !(n.End >= n.Start) || n.End*scale*float64(e.cfg.ShiftMS) > maxMS {
+		if !(on >= 0) || !(n.End >= n.Start) || n.End*scale*q.shiftMS > maxMS {
 			return qBad
 		}
 		s := q.onStep(n.Start, on)
 		out.on, out.off, out.pitch, out.vel, out.drum, out.inst = s, s, n.Pitch, e.vocab.velBins[n.Velocity&127], true, InstDrums
+		out.slot = n.Pitch<<1 | 1
 		return qOK
 	}
 	pitch := int(n.Pitch) + q.transpose
@@ -146,11 +153,11 @@ func (e *Encoder) quantize(n *ingest.Note, q *quantizer, st *Stats, out *pnote) 
 		return qSkip
 	}
 	on, off := n.Start*scale, n.End*scale
-	if !(on >= 0) || !(off >= on) || off*float64(e.cfg.ShiftMS) > maxMS {
+	if !(on >= 0) || !(off >= on) || off*q.shiftMS > maxMS {
 		return qBad
 	}
 	out.on, out.off, out.pitch = q.onStep(n.Start, on), int64(math.Round(off)), uint8(pitch)
-	out.vel, out.drum, out.inst = e.vocab.velBins[n.Velocity&127], false, int16(n.Program)
+	out.vel, out.drum, out.inst, out.slot = e.vocab.velBins[n.Velocity&127], false, int16(n.Program), uint8(pitch)<<1
 	return qOK
 }
 
@@ -158,6 +165,7 @@ func (e *Encoder) quantize(n *ingest.Note, q *quantizer, st *Stats, out *pnote) 
 // last note: the notes of a chord share their start, so it is rounded once.
 type quantizer struct {
 	scale     float64 // seconds to steps
+	shiftMS   float64 // the config's, converted once
 	transpose int
 	lastStart float64 // NaN before the first note
 	lastOn    int64
@@ -199,7 +207,35 @@ func (e *Encoder) finishPerformance(o *perfOut, d []Token, last []pnote, st *Sta
 	return d, *st, nil
 }
 
-// emitGroup emits the notes that start at one step, appending to d.
+// add adds note i of the onset group g to the group's keys (see perfOut.keys),
+// merging it into an earlier note of its key. The group's notes are added as they
+// come, so that emitGroup need not go over them once more to order them. It counts
+// merges and retriggers in o until emitGroup adds them to the stats: an error before
+// then leaves the group out of the stats.
+//
+// One note per key at a time: at the same onset keep the longest (then the loudest,
+// then the lowest program, so piece order does not matter); a key still sounding
+// past this onset ends here (retrigger).
+func (o *perfOut) add(g []pnote, i int) {
+	n := &g[i]
+	k := uint(n.slot)
+	if bit := uint64(1) << (k & 63); o.keys[k>>6]&bit == 0 {
+		o.keys[k>>6] |= bit
+		o.first[k] = uint32(i)
+		if s := g[0].on; !n.drum && o.keyOff[n.pitch] > s {
+			o.retrigger(n.pitch, s)
+			o.retriggered++
+		}
+		return
+	}
+	o.merged++
+	if l := &g[o.first[k]]; n.off > l.off || (n.off == l.off && (n.vel > l.vel || (n.vel == l.vel && n.inst < l.inst))) {
+		l.off, l.vel, l.inst = n.off, n.vel, n.inst
+	}
+}
+
+// emitGroup emits the notes that start at one step, all added with add, appending
+// to d.
 //
 // The token slice is passed and returned rather than kept in perfOut, and buffers
 // are stored back only when they grow: a slice stored through a pointer costs a
@@ -208,44 +244,18 @@ func (e *Encoder) finishPerformance(o *perfOut, d []Token, last []pnote, st *Sta
 func (e *Encoder) emitGroup(o *perfOut, d []Token, group []pnote, st *Stats) ([]Token, error) {
 	voc := e.vocab
 	s := group[0].on
-	// Order the group by key, a note before a hit of the same key, through sort keys
-	// that carry the note's index (so notes of one key stay in piece order).
-	if cap(e.keys) < len(group) {
-		e.keys = make([]uint64, 0, 2*len(group))
+	keys := o.keys
+	o.keys = [4]uint64{}
+	st.Merged += o.merged
+	st.Retriggered += o.retriggered
+	o.merged, o.retriggered = 0, 0
+	// Most groups have no note-off due and follow the last event closely: the
+	// calls are skipped then (offsBefore would find nothing to do).
+	ok := true
+	if lim := uint64(s+1) << offStepShift; o.head < o.qlen && o.offq[o.head] < lim {
+		d, ok = o.offsBefore(d, lim)
 	}
-	keys := e.keys[:len(group)]
-	for i := range group {
-		n := &group[i]
-		k := uint64(n.pitch)<<33 | uint64(uint32(i))
-		if n.drum {
-			k |= 1 << 32
-		}
-		keys[i] = k
-	}
-	sortKeys(keys)
-	// One note per key at a time: at the same onset keep the longest (then the
-	// loudest, then the lowest program, so piece order does not matter); a key still
-	// sounding past this onset ends here (retrigger).
-	kept := keys[:0]
-	for _, key := range keys {
-		n := &group[uint32(key)]
-		if len(kept) > 0 {
-			if l := &group[uint32(kept[len(kept)-1])]; l.pitch == n.pitch && l.drum == n.drum {
-				st.Merged++
-				if n.off > l.off || (n.off == l.off && (n.vel > l.vel || (n.vel == l.vel && n.inst < l.inst))) {
-					l.off, l.vel, l.inst = n.off, n.vel, n.inst
-				}
-				continue
-			}
-		}
-		if !n.drum && o.keyOff[n.pitch] > s {
-			o.retrigger(n.pitch, s)
-			st.Retriggered++
-		}
-		kept = append(kept, key)
-	}
-	d, ok := o.offsBefore(d, uint64(s+1)<<offStepShift)
-	if ok {
+	if ok && s > o.cur {
 		d, ok = o.advance(d, s)
 	}
 	if !ok {
@@ -254,28 +264,47 @@ func (e *Encoder) emitGroup(o *perfOut, d []Token, group []pnote, st *Stats) ([]
 	ms := int32(o.cur * o.shiftMS)
 	vel := o.curVel
 	zero := false // a note of zero length, whose note-off follows all note-ons
-	for _, key := range kept {
-		n := &group[uint32(key)]
-		if int(n.vel) != vel {
+	// Each kept note takes at most a set-velocity and a note-on here. They are
+	// written into reserved room, the set-velocity always and kept only when the bin
+	// changes: bins change in no pattern a branch predictor can learn.
+	if room := 2 * len(group); cap(d)-len(d) < room {
+		d = slices.Grow(d, room)
+	}
+	w, j := d[:len(d)+2*len(group)], len(d)
+	for wi, word := range keys {
+		for ; word != 0; word &= word - 1 {
+			n := &group[o.first[wi<<6|bits.TrailingZeros64(word)]]
+			t := &w[j]
+			t.ID, t.Time, t.MS, t.Pitch, t.Inst = voc.velBase+int32(n.vel), ms, ms, -1, -1
+			if int(n.vel) != vel {
+				j++
+			}
 			vel = int(n.vel)
-			d = put(d, voc.velBase+int32(n.vel), ms, ms, -1, -1)
-		}
-		if n.drum {
-			d = put(d, voc.hitBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
-			continue
-		}
-		d = put(d, voc.onBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
-		o.keyOff[n.pitch] = n.off
-		if n.off == n.on {
-			zero = true
-		} else {
-			o.pushOff(packOff(n.off, n.pitch, n.inst))
+			id := voc.onBase + int32(n.pitch)
+			if n.drum {
+				id = voc.hitBase + int32(n.pitch)
+			}
+			t = &w[j]
+			t.ID, t.Time, t.MS, t.Pitch, t.Inst = id, ms, ms, int16(n.pitch), n.inst
+			j++
+			if n.drum {
+				continue
+			}
+			o.keyOff[n.pitch] = n.off
+			if n.off == n.on {
+				zero = true
+			} else {
+				o.pushOff(packOff(n.off, n.pitch, n.inst))
+			}
 		}
 	}
+	d = w[:j]
 	if zero {
-		for _, key := range kept {
-			if n := &group[uint32(key)]; !n.drum && n.off == n.on {
-				d = put(d, voc.offBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
+		for wi, word := range keys {
+			for ; word != 0; word &= word - 1 {
+				if n := &group[o.first[wi<<6|bits.TrailingZeros64(word)]]; !n.drum && n.off == n.on {
+					d = put(d, voc.offBase+int32(n.pitch), ms, ms, int16(n.pitch), n.inst)
+				}
 			}
 		}
 	}
@@ -303,6 +332,15 @@ type perfOut struct {
 	offq       []uint64
 	head, qlen int
 	keyOff     [128]int64 // off step of each key's latest note
+	// keys and first order the onset group being built by key, a note before a hit
+	// of the same key: a bitmap of the keys present (bit 2*pitch, plus one for a
+	// hit), visited in order in a few words, and the group index of each key's
+	// first note. Sorting the group cost more than the rest of emitGroup.
+	keys  [4]uint64
+	first [256]uint32
+	// merged and retriggered count the group's notes that add merged and
+	// retriggered.
+	merged, retriggered int
 }
 
 // retrigger moves the pending note-off of key (the note sounding past step) to step.
@@ -368,10 +406,12 @@ func (o *perfOut) offsBefore(d []Token, lim uint64) ([]Token, bool) {
 	for h < len(q) && q[h] < lim {
 		k := q[h]
 		h++
-		var ok bool
-		if d, ok = o.advance(d, int64(k>>offStepShift)); !ok {
-			o.head = h
-			return d, false
+		if to := int64(k >> offStepShift); to > o.cur {
+			var ok bool
+			if d, ok = o.advance(d, to); !ok {
+				o.head = h
+				return d, false
+			}
 		}
 		ms := int32(o.cur * o.shiftMS)
 		pitch := int16(uint8(k >> offPitchShift))
@@ -382,18 +422,4 @@ func (o *perfOut) offsBefore(d []Token, lim uint64) ([]Token, bool) {
 	}
 	o.head = h
 	return d, true
-}
-
-// sortKeys sorts the sort keys of one onset group: insertion sort for the usual
-// few notes, the standard library's sort for big groups.
-func sortKeys(k []uint64) {
-	if len(k) > smallSort {
-		slices.Sort(k)
-		return
-	}
-	for i := 1; i < len(k); i++ {
-		for j := i; j > 0 && k[j] < k[j-1]; j-- {
-			k[j], k[j-1] = k[j-1], k[j]
-		}
-	}
 }

@@ -235,3 +235,54 @@ func TestWindowsInPlace(t *testing.T) {
 		}
 	}
 }
+
+// TestWindowRareVelocity checks each window's restated velocity against the latest
+// set-velocity before its cut found by a plain scan, with one velocity bin (one
+// set-velocity in the whole stream) and short windows, overlapping and not: the
+// look-back reads each token once (it used to rescan to the stream's start at every
+// cut).
+func TestWindowRareVelocity(t *testing.T) {
+	p := randomPiece(3, 20000, false)
+	sortNotes(p.Notes)
+	for _, stride := range []int{32, 13} {
+		cfg := DefaultConfig()
+		cfg.VelocityBins, cfg.MaxLen, cfg.Stride, cfg.MinLen = 1, 32, stride, 0
+		e := mustEncoder(t, cfg)
+		stream, _, err := e.Encode(p, Identity, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lo, hi := e.Vocab().velBase, e.Vocab().velBase+1
+		windows := 0
+		err = e.WindowsOf(stream, Identity, func(w Window) error {
+			windows++
+			if w.Start == 0 {
+				return nil
+			}
+			var want int32
+			for i := w.Start - 1; i >= 0; i-- {
+				if id := stream[i].ID; id >= lo && id < hi {
+					want = id
+					break
+				}
+			}
+			if first := e.Vocab().kinds[stream[w.Start].ID]; first == KindVelocity {
+				want = 0 // the window opens with one
+			}
+			got := int32(0)
+			if w.Prefix > 0 {
+				got = w.Tokens[0].ID
+			}
+			if got != want {
+				t.Fatalf("stride %d, window %d at %d: restates velocity %d, want %d", stride, w.Index, w.Start, got, want)
+			}
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if windows < len(stream)/32 {
+			t.Fatalf("stride %d: %d windows for %d tokens", stride, windows, len(stream))
+		}
+	}
+}
