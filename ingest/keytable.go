@@ -176,8 +176,8 @@ func writeRun(n int, each func(yield func(dupKey, uint64) error) error) (*keyRun
 // mergeKeyRuns merges run a and the newer run b into a run of the next level; b's
 // value wins for a key in both.
 func mergeKeyRuns(a, b *keyRun) (*keyRun, error) {
-	ra := bufio.NewReaderSize(io.NewSectionReader(a.f, 0, int64(a.n)*entryLen), min(mergeBufSize, a.n*entryLen+16))
-	rb := bufio.NewReaderSize(io.NewSectionReader(b.f, 0, int64(b.n)*entryLen), min(mergeBufSize, b.n*entryLen+16))
+	ra := bufio.NewReaderSize(io.NewSectionReader(a.f, 0, int64(a.n)*entryLen), min(mergeBufSize, (a.n+1)*entryLen))
+	rb := bufio.NewReaderSize(io.NewSectionReader(b.f, 0, int64(b.n)*entryLen), min(mergeBufSize, (b.n+1)*entryLen))
 	r, err := writeRun(a.n+b.n, func(yield func(dupKey, uint64) error) error {
 		ka, va, okA, err := readEntry(ra)
 		if err != nil {
@@ -224,16 +224,22 @@ func mergeKeyRuns(a, b *keyRun) (*keyRun, error) {
 	return r, nil
 }
 
-// readEntry reads the next entry of a run; ok is false at its end.
+// readEntry reads the next entry of a run; ok is false at its end. The entry is
+// read in place in the reader's buffer, which holds at least one entry.
 func readEntry(r *bufio.Reader) (k dupKey, v uint64, ok bool, err error) {
-	var e [entryLen]byte
-	if _, err := io.ReadFull(r, e[:]); err != nil {
-		if err == io.EOF {
+	e, err := r.Peek(entryLen)
+	if err != nil {
+		if err == io.EOF && len(e) == 0 {
 			return k, 0, false, nil
+		}
+		if err == io.EOF {
+			err = io.ErrUnexpectedEOF
 		}
 		return k, 0, false, err
 	}
-	return dupKey(e[:keyLen]), binary.LittleEndian.Uint64(e[keyLen:]), true, nil
+	k, v = dupKey(e[:keyLen]), binary.LittleEndian.Uint64(e[keyLen:])
+	r.Discard(entryLen)
+	return k, v, true, nil
 }
 
 // get looks k up in the run, reading one block into *blk when the filter admits it.

@@ -147,11 +147,23 @@ func readSorted(r *bufio.Reader) (sortedName, bool, error) {
 	if n > 1<<30 {
 		return sortedName{}, false, errors.New("damaged run")
 	}
-	b := make([]byte, n)
-	if _, err := io.ReadFull(r, b); err != nil {
-		return sortedName{}, false, io.ErrUnexpectedEOF
+	var name string
+	if int(n) <= r.Size() {
+		// the usual name, copied once out of the reader's buffer
+		b, err := r.Peek(int(n))
+		if err != nil {
+			return sortedName{}, false, io.ErrUnexpectedEOF
+		}
+		name = string(b)
+		r.Discard(int(n))
+	} else {
+		b := make([]byte, n)
+		if _, err := io.ReadFull(r, b); err != nil {
+			return sortedName{}, false, io.ErrUnexpectedEOF
+		}
+		name = string(b)
 	}
-	return sortedName{string(b), tag, int(seq)}, true, nil
+	return sortedName{name, tag, int(seq)}, true, nil
 }
 
 // each calls fn with every name in sorted order, and releases the runs.
