@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"bufio"
+	"bytes"
 	"encoding/binary"
 	"fmt"
 	"io"
@@ -325,22 +326,8 @@ func (t *keyTable) close() {
 	t.runs = nil
 }
 
-func compareDupKeys(a, b dupKey) int {
-	if x, y := binary.BigEndian.Uint64(a[:8]), binary.BigEndian.Uint64(b[:8]); x != y {
-		if x < y {
-			return -1
-		}
-		return 1
-	}
-	x, y := binary.BigEndian.Uint64(a[8:]), binary.BigEndian.Uint64(b[8:])
-	switch {
-	case x < y:
-		return -1
-	case x > y:
-		return 1
-	}
-	return 0
-}
+// compareDupKeys orders keys as their bytes.
+func compareDupKeys(a, b dupKey) int { return bytes.Compare(a[:], b[:]) }
 
 // newScratchFile creates an unlinked temporary file. A system that cannot unlink
 // an open file gets an error rather than a file that a crash would leave behind.

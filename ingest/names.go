@@ -66,12 +66,11 @@ func (s *nameStore) add(name string) uint64 {
 		s.spill()
 	}
 	if s.f != nil && s.err == nil {
-		if _, err := s.w.WriteString(name); err == nil {
+		_, s.err = s.w.WriteString(name)
+		if s.err == nil {
 			ref := nameInFile | uint64(s.size)<<nameLenBits | uint64(len(name))
 			s.size += int64(len(name))
 			return ref
-		} else {
-			s.err = err
 		}
 	}
 	ref := uint64(len(s.buf))<<nameLenBits | uint64(len(name))

@@ -87,7 +87,6 @@ func (s *nameSort) flush() error {
 		return fmt.Errorf("sort names: %w", err)
 	}
 	s.runs = append(s.runs, f)
-	// a run is written sorted; reading needs the items sorted the same way
 	clear(s.items) // drop the names
 	s.items, s.size = s.items[:0], 0
 	return nil
@@ -100,7 +99,7 @@ func (s *nameSort) collapse() error {
 		return fmt.Errorf("sort names: %w", err)
 	}
 	w := bufio.NewWriterSize(f, runBufSize)
-	err = s.merge(s.runs, nil, func(it sortedName) error { return writeSorted(w, it) })
+	err = mergeSorted(s.runs, nil, func(it sortedName) error { return writeSorted(w, it) })
 	if err == nil {
 		err = w.Flush()
 	}
@@ -170,11 +169,11 @@ func readSorted(r *bufio.Reader) (sortedName, bool, error) {
 func (s *nameSort) each(fn func(name string, tag byte) error) error {
 	defer s.close()
 	slices.SortFunc(s.items, compareSorted)
-	return s.merge(s.runs, s.items, func(it sortedName) error { return fn(it.name, it.tag) })
+	return mergeSorted(s.runs, s.items, func(it sortedName) error { return fn(it.name, it.tag) })
 }
 
-// merge merges the runs in files and the sorted items in memory.
-func (s *nameSort) merge(files []*os.File, items []sortedName, fn func(sortedName) error) error {
+// mergeSorted merges the runs in files and the sorted items in memory.
+func mergeSorted(files []*os.File, items []sortedName, fn func(sortedName) error) error {
 	h := &sortHeap{}
 	add := func(src *sortSource) error {
 		it, ok, err := src.next()
