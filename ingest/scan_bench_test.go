@@ -4,7 +4,6 @@ import (
 	"context"
 	"os"
 	"path/filepath"
-	"syscall"
 	"testing"
 	"time"
 )
@@ -105,18 +104,10 @@ type scanCPU struct {
 	start time.Duration
 }
 
-func startScanCPU(b *testing.B) scanCPU { return scanCPU{b, rusageCPU()} }
+func startScanCPU(b *testing.B) scanCPU { return scanCPU{b, processCPU()} }
 
 func (m scanCPU) stop() {
-	if d := rusageCPU() - m.start; d > 0 && m.b.N > 0 {
+	if d := processCPU() - m.start; d > 0 && m.b.N > 0 {
 		m.b.ReportMetric(float64(d.Nanoseconds())/float64(m.b.N), "cpu-ns/op")
 	}
-}
-
-func rusageCPU() time.Duration {
-	var ru syscall.Rusage
-	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
-		return 0
-	}
-	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }

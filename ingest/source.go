@@ -163,18 +163,9 @@ func enumerate(ctx context.Context, src Source, kind sourceKind, opts *Options, 
 // never reading more than max+1 bytes (the file may grow while read).
 func fileLoader(path string, max int64) func([]byte) ([]byte, error) {
 	return func(buf []byte) ([]byte, error) {
-		f, size, err := openRegular(path, max)
-		if err != nil {
-			return nil, err
-		}
-		defer f.Close()
-		data, err := readCappedInto(f, buf, max, size, func() error {
+		return readRegular(path, buf, max, func() error {
 			return fmt.Errorf("grew past the limit %s while read: %w", sizeString(max), ErrTooLarge)
 		})
-		if err != nil {
-			return nil, fmt.Errorf("read: %w", err)
-		}
-		return data, nil
 	}
 }
 
