@@ -120,6 +120,7 @@ func TestScanIndexesOnDisk(t *testing.T) {
 		{"format 2", TestScanFormat2Duplicates}, {"repeated entry names", TestRepeatedEntryNames},
 		{"repeated paths", TestRepeatedPathAcrossSources}, {"deterministic", TestScanDeterministic},
 		{"mixed folder", TestScanMixedFolder}, {"symlink loop", TestFolderSymlinkLoop},
+		{"folder order", TestFolderOrder},
 		{"list", TestListSource}, {"list repeated path", TestListSourceRepeatedPath},
 		{"hostile corpus", TestHostileCorpusScan}, {"tar sorted", TestTarSortedMultiPass},
 	} {

@@ -190,91 +190,154 @@ func openRegular(path string, max int64) (*os.File, int64, error) {
 	return f, fi.Size(), nil
 }
 
-// tagBad is the nameSort tag of a folder entry that is an error, kept by name in
-// enumerateFolder.
-const tagBad = 255
+// Tags of folder entries in a folder's nameSort besides source kinds: an entry that
+// is an error (its error kept by name in the walk), and a subfolder, added as its
+// name and a slash.
+const (
+	tagBad = 255
+	tagDir = 254
+)
+
+// listBatch is the number of entries read from a folder at a time.
+const listBatch = 256
 
 // enumerateFolder walks a folder recursively, following symbolic links to folders at
 // most once each (so link loops end), and emits its MIDI files sorted by relative path.
 // Zip and tar archives in the folder are read in place at their place in that order,
 // their entries named "archive/entry". Other files are ignored; an unreadable subfolder
 // or a broken link with a MIDI name is an entry with its error.
+//
+// The walk emits as it goes, so parsing starts with the first file rather than after
+// the whole tree is listed. Each folder's entries are sorted (nameSort: bounded memory
+// for a folder of any size) with a subfolder listed as its name and a slash, so that
+// visiting the folders in that order gives every path in sorted order: "b.mid" comes
+// before "b/x.mid", as '.' sorts before '/'. A subfolder that cannot be opened is an
+// entry at its own name; an error part-way through listing a folder is an entry named
+// for the folder, emitted before the entries read from it.
 func enumerateFolder(ctx context.Context, root string, base entry, opts *Options, emit emitFunc) error {
-	// The names are sorted in bounded memory (nameSort), each tagged with its kind;
-	// the few entries that are errors keep their error here, by name.
+	w := folderWalk{base: base, opts: opts, emit: emit, ctx: ctx, visited: map[string]bool{}}
+	return w.walk(root, "")
+}
+
+// folderWalk is the state of one enumerateFolder.
+type folderWalk struct {
+	ctx     context.Context
+	base    entry
+	opts    *Options
+	emit    emitFunc
+	visited map[string]bool // real paths of the folders walked
+}
+
+// walk emits the entries of folder dir, whose path relative to the root is rel ("" for
+// the root).
+func (w *folderWalk) walk(dir, rel string) error {
+	if real, err := filepath.EvalSymlinks(dir); err == nil {
+		if w.visited[real] {
+			return nil
+		}
+		w.visited[real] = true
+	}
 	names := newNameSort()
 	bad := map[string]error{}
-	addBad := func(rel string, err error) {
-		if _, dup := bad[rel]; !dup {
-			bad[rel] = err
-			names.add(rel, tagBad)
+	addBad := func(name string, err error) {
+		if _, dup := bad[name]; !dup {
+			bad[name] = err
+			names.add(name, tagBad)
 		}
 	}
-	visited := map[string]bool{}
-	var walk func(dir, rel string)
-	walk = func(dir, rel string) {
-		if real, err := filepath.EvalSymlinks(dir); err == nil {
-			if visited[real] {
+	if err := listFolder(dir, func(de fs.DirEntry) {
+		name := de.Name()
+		abs := filepath.Join(dir, name)
+		mode := de.Type()
+		if mode&fs.ModeSymlink != 0 {
+			fi, err := os.Stat(abs)
+			if err != nil {
+				if isMIDIName(name) {
+					addBad(name, fmt.Errorf("broken link: %w", err))
+				}
 				return
 			}
-			visited[real] = true
+			mode = fi.Mode().Type()
 		}
-		des, err := os.ReadDir(dir)
-		if err != nil {
-			addBad(relOrDot(rel), fmt.Errorf("read folder: %w", err))
+		ak, isArchive := archiveKind(name)
+		switch {
+		case mode.IsDir():
+			// Opened here, so that a folder that cannot be read is reported at its
+			// own name's place in the order.
+			f, err := os.Open(abs)
+			if err != nil {
+				addBad(name, fmt.Errorf("read folder: %w", err))
+				return
+			}
+			f.Close()
+			names.add(name+"/", tagDir)
+		case isArchive && mode.IsRegular():
+			names.add(name, byte(ak))
+		case !isMIDIName(name):
+		case mode.IsRegular():
+			names.add(name, byte(kindFile))
+		default:
+			addBad(name, ErrSpecialEntry)
 		}
-		for _, de := range des {
-			abs := filepath.Join(dir, de.Name())
-			r := de.Name()
-			if rel != "" {
-				r = rel + "/" + de.Name()
-			}
-			mode := de.Type()
-			if mode&fs.ModeSymlink != 0 {
-				fi, err := os.Stat(abs)
-				if err != nil {
-					if isMIDIName(de.Name()) {
-						addBad(r, fmt.Errorf("broken link: %w", err))
-					}
-					continue
-				}
-				mode = fi.Mode().Type()
-			}
-			ak, isArchive := archiveKind(de.Name())
-			switch {
-			case mode.IsDir():
-				walk(abs, r)
-			case isArchive && mode.IsRegular():
-				names.add(r, byte(ak))
-			case !isMIDIName(de.Name()):
-			case mode.IsRegular():
-				names.add(r, byte(kindFile))
-			default:
-				addBad(r, ErrSpecialEntry)
-			}
-		}
+	}); err != nil {
+		addBad("", fmt.Errorf("read folder: %w", err)) // "" sorts first
 	}
-	walk(root, "")
-	return names.each(func(rel string, tag byte) error {
-		e := base
-		e.path = rel
-		// the walk joined the same names with the separator
-		abs := filepath.Join(root, filepath.FromSlash(rel))
+	return names.each(func(name string, tag byte) error {
+		if tag == tagDir {
+			sub := strings.TrimSuffix(name, "/")
+			return w.walk(filepath.Join(dir, sub), joinRel(rel, sub))
+		}
+		e := w.base
+		e.path = relOrDot(joinRel(rel, name))
+		abs := filepath.Join(dir, name)
 		switch k := sourceKind(tag); {
 		case tag == tagBad:
-			e.err = bad[rel]
-			return emit(&e)
+			e.err = bad[name]
+			return w.emit(&e)
 		case k == kindZip:
 			e.path += "/"
-			return enumerateZip(ctx, abs, e, opts, emit)
+			return enumerateZip(w.ctx, abs, e, w.opts, w.emit)
 		case k == kindTar || k == kindTarGz:
 			e.path += "/"
-			return enumerateTar(ctx, abs, k == kindTarGz, e, opts, emit)
+			return enumerateTar(w.ctx, abs, k == kindTarGz, e, w.opts, w.emit)
 		default:
-			e.load = fileLoader(abs, opts.MaxFileSize)
-			return emit(&e)
+			e.load = fileLoader(abs, w.opts.MaxFileSize)
+			return w.emit(&e)
 		}
 	})
+}
+
+// listFolder calls fn with each entry of folder dir, reading a batch at a time so
+// that a folder of a million files is never held whole.
+func listFolder(dir string, fn func(fs.DirEntry)) error {
+	f, err := os.Open(dir)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	for {
+		des, err := f.ReadDir(listBatch)
+		for _, de := range des {
+			fn(de)
+		}
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+	}
+}
+
+// joinRel joins a relative folder path and a name with a slash.
+func joinRel(rel, name string) string {
+	switch {
+	case rel == "":
+		return name
+	case name == "":
+		return rel
+	}
+	return rel + "/" + name
 }
 
 // archiveKind reports whether a file name is that of an archive read in place.

@@ -4,6 +4,9 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
+	"sort"
+	"strings"
 	"testing"
 )
 
@@ -87,6 +90,65 @@ func TestFolderSymlinkLoop(t *testing.T) {
 	}
 	if got[2].Record.DuplicateKind != DupExact || got[3].Record.Status != StatusSkipped {
 		t.Errorf("link outcomes: %v", outcomes(got))
+	}
+}
+
+// TestFolderOrder: the walk, which emits folder by folder, gives the paths in the
+// order of a plain byte-wise sort of the relative paths (Go's sort.Strings as the
+// reference), also where a name ends in a character that sorts before '/'.
+func TestFolderOrder(t *testing.T) {
+	root := t.TempDir()
+	tune := fxSMF(t, 96, false, fxTune(96, 0))
+	rels := []string{
+		"b.mid", "b/x.mid", "b!/y.mid", "b-c.mid", "b/c/d.mid", "b/c.mid", "b/c-d/e.mid", "a b/z.mid",
+		"a.mid", "a/a.mid", "A/q.mid", "z/y/x/w.mid", "z/y.mid", "z.mid", "Zz.mid", "~.mid", "b0/k.mid",
+	}
+	files := map[string][]byte{}
+	for i, r := range rels {
+		// distinct tunes, so that no file is a duplicate of another
+		files[r] = fxSMF(t, 96, false, fxTune(96, uint8(i+1)))
+	}
+	files["b/c/notes.txt"] = tune // not MIDI: left out
+	fxWrite(t, root, files)
+	var got []string
+	for _, r := range scanAll(t, []Source{{Path: root}}, DefaultOptions()) {
+		got = append(got, r.Record.Path)
+	}
+	want := slices.Clone(rels)
+	sort.Strings(want)
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("paths\n%q\nwant\n%q", got, want)
+	}
+}
+
+// TestFolderUnreadable: a subfolder that cannot be opened is an entry of its own at
+// its name's place in the order, and the walk goes on.
+func TestFolderUnreadable(t *testing.T) {
+	root := t.TempDir()
+	fxWrite(t, root, map[string][]byte{
+		"a.mid":      fxSMF(t, 96, false, fxTune(96, 1)),
+		"b/x.mid":    fxSMF(t, 96, false, fxTune(96, 2)),
+		"b.mid":      fxSMF(t, 96, false, fxTune(96, 3)),
+		"c/deep.mid": fxSMF(t, 96, false, fxTune(96, 4)),
+	})
+	locked := filepath.Join(root, "b")
+	if err := os.Chmod(locked, 0); err != nil {
+		t.Skip(err)
+	}
+	defer os.Chmod(locked, 0o755)
+	if f, err := os.Open(locked); err == nil {
+		f.Close()
+		t.Skip("a folder without permissions can still be read here (running as root)")
+	}
+	var paths []string
+	for _, r := range scanAll(t, []Source{{Path: root}}, DefaultOptions()) {
+		paths = append(paths, r.Record.Path)
+		if r.Record.Path == "b" && (r.Record.Status != StatusSkipped || !strings.Contains(r.Record.Reason, "permission denied")) {
+			t.Errorf("the locked folder: %s %q", r.Record.Status, r.Record.Reason)
+		}
+	}
+	if want := []string{"a.mid", "b", "b.mid", "c/deep.mid"}; !reflect.DeepEqual(paths, want) {
+		t.Errorf("paths %q, want %q", paths, want)
 	}
 }
 
