@@ -2,8 +2,12 @@ package relpos
 
 import (
 	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"slices"
 	"testing"
 
+	"github.com/relshard/relshard/ingest"
 	"github.com/relshard/relshard/tokenize"
 )
 
@@ -149,5 +153,63 @@ func benchCount(b *testing.B, cfg Config, tokens []tokenize.Token) {
 		if err := c.Count(tally, tokens); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// BenchmarkCountReal counts the windows of real files, Debian's openttd-openmsx
+// music, in both encodings with DefaultConfig: their times come in whole steps and
+// their density varies as music does, which the synthetic windows above do not show.
+func BenchmarkCountReal(b *testing.B) {
+	paths, _ := filepath.Glob(filepath.Join(openMSXDir, "*.mid"))
+	if len(paths) == 0 {
+		b.Skip("openttd-openmsx files missing (install Debian's openttd-openmsx)")
+	}
+	for _, enc := range []string{tokenize.Performance, tokenize.Grid} {
+		b.Run(enc, func(b *testing.B) {
+			cfg := tokenize.DefaultConfig()
+			cfg.Encoding = enc
+			e, err := tokenize.NewEncoder(cfg)
+			if err != nil {
+				b.Fatal(err)
+			}
+			var windows [][]tokenize.Token
+			for _, p := range paths {
+				data, err := os.ReadFile(p)
+				if err != nil {
+					b.Fatal(err)
+				}
+				pieces, err := ingest.Parse(p, data, ingest.DefaultParseOptions())
+				if err != nil {
+					b.Fatal(err)
+				}
+				for i := range pieces {
+					if err := e.Windows(&pieces[i], func(w tokenize.Window) error {
+						windows = append(windows, slices.Clone(w.Tokens))
+						return nil
+					}); err != nil {
+						b.Fatal(err)
+					}
+				}
+			}
+			c, err := NewCounter(DefaultConfig())
+			if err != nil {
+				b.Fatal(err)
+			}
+			tally := c.NewTally()
+			for _, w := range windows { // grows the scratch buffers once
+				if err := c.Count(tally, w); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportAllocs()
+			for b.Loop() {
+				for _, w := range windows {
+					if err := c.Count(tally, w); err != nil {
+						b.Fatal(err)
+					}
+				}
+			}
+			b.ReportMetric(float64(len(windows)), "windows/op")
+		})
 	}
 }

@@ -138,12 +138,14 @@ func TestCountCorpus(t *testing.T) {
 	}
 }
 
+// openMSXDir holds the MIDI files of Debian's openttd-openmsx package.
+const openMSXDir = "/usr/share/games/openttd/baseset/openmsx"
+
 // TestCountCorpusOpenMSX counts the real files of Debian's openttd-openmsx package
 // (General MIDI pieces) and checks the exact counts against the naive count of the same
 // windows; it skips when the package is absent.
 func TestCountCorpusOpenMSX(t *testing.T) {
-	const dir = "/usr/share/games/openttd/baseset/openmsx"
-	files, _ := filepath.Glob(filepath.Join(dir, "*.mid"))
+	files, _ := filepath.Glob(filepath.Join(openMSXDir, "*.mid"))
 	if len(files) == 0 {
 		if os.Getenv("RELSHARD_REQUIRE_REFS") == "1" {
 			t.Fatal("openttd-openmsx files missing (install Debian's openttd-openmsx)")

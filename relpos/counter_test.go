@@ -186,3 +186,81 @@ func FuzzCount(f *testing.F) {
 		}
 	})
 }
+
+// TestCountMatchesNaiveTimeUnits compares fast and naive counts on windows whose times
+// are whole multiples of a unit, as the encodings write them (performance: steps of
+// shift_ms, often 10 ms; grid: grid steps), so that far time cuts are counted from the
+// rank table as well as by pointers; and checks rankBelow against pointerBelow
+// directly on every far cut.
+func TestCountMatchesNaiveTimeUnits(t *testing.T) {
+	r := rand.New(rand.NewPCG(5, 6))
+	tables := 0
+	for _, tt := range []struct {
+		unit, maxGap int32 // time unit, and the largest gap in units
+		n            int
+	}{
+		{1, 3, 400}, {10, 5, 600}, {10, 50, 300}, {7, 2, 500}, {480, 4, 200}, {10, 400, 300}, {3, 0, 50},
+	} {
+		for _, pairs := range []Mode{Causal, Bidirectional} {
+			cfg := DefaultConfig()
+			cfg.Pairs = pairs
+			cfg.Time = append(cfg.Time, SchemeSpec{Scheme: TypeLinear, Width: 1 + r.IntN(40), Clip: clipPtr(64)})
+			c, err := NewCounter(cfg)
+			if err != nil {
+				t.Fatal(err)
+			}
+			tokens := make([]tokenize.Token, tt.n)
+			tm := tt.unit * int32(r.IntN(100))
+			for i := range tokens {
+				if tt.maxGap > 0 && r.IntN(3) > 0 {
+					tm += tt.unit * int32(r.IntN(int(tt.maxGap)+1))
+				}
+				tokens[i] = tokenize.Token{Time: tm, MS: tm, Pitch: int16(40 + r.IntN(40)), Inst: int16(r.IntN(4))}
+				if r.IntN(6) == 0 {
+					tokens[i].Inst, tokens[i].Pitch = tokenize.InstDrums, 36
+				}
+			}
+			tally := c.NewTally()
+			if err := c.Count(tally, tokens); err != nil {
+				t.Fatal(err)
+			}
+			want, err := c.CountNaive(tokens) // the O(L²) enumeration as the reference
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got := c.Counts(tally); !reflect.DeepEqual(got, want) {
+				t.Fatalf("unit %d, gaps ≤ %d, %s: fast counts differ from naive\n got %+v\nwant %+v", tt.unit, tt.maxGap, pairs, got, want)
+			}
+
+			// The two far-cut counters on the whole window's groups.
+			v := make([]int64, len(tokens))
+			for i, tk := range tokens {
+				v[i] = int64(tk.Time)
+			}
+			span := v[len(v)-1] - v[0]
+			c.unit = timeUnit(v)
+			c.countPointers(v, c.cuts[Time], c.timeIdx, make([]int64, len(c.cuts[Time])), make([]int64, c.exact+1), new(int64))
+			vals, cnts, pre := c.gval, c.gcnt, c.gpre
+			if c.unit <= 0 || span/c.unit+1 > int64(maxRankPerGroup*len(vals)) {
+				continue // countPointers would not build the table
+			}
+			c.rankTable(vals, cnts, span)
+			unit := c.unit
+			tables++
+			if span > 0 && unit%int64(tt.unit) != 0 {
+				t.Errorf("unit %d: table step %d", tt.unit, unit)
+			}
+			for _, x := range []int64{-1, -int64(tt.unit), -int64(tt.unit) - 1, -2 * int64(tt.unit), -span, -span - 1, -span / 2, -span/3 - 1} {
+				if x >= 0 {
+					continue
+				}
+				if got, want := c.rankBelow(cnts, unit, x), pointerBelow(vals, cnts, pre, x); got != want {
+					t.Errorf("unit %d, cut %d: rankBelow %d, pointerBelow %d", tt.unit, x, got, want)
+				}
+			}
+		}
+	}
+	if tables < 8 {
+		t.Errorf("the rank table served %d windows of 14", tables)
+	}
+}
