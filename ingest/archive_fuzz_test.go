@@ -21,7 +21,7 @@ var updateSources = flag.Bool("update-sources", false, "rewrite testdata/sources
 func sourceFixtures(t testing.TB) map[string][]byte {
 	tune := fxSMF(t, 96, false, fxTune(96, 0))
 	other := fxSMF(t, 480, false, fxOther(480))
-	drums := fxSMF(t, 120, false, []fxNote{{0, 60, 36, 100, 9}, {60, 60, 38, 100, 9}, {120, 60, 42, 90, 9}})
+	drums := fxSMF(t, 120, false, []fxNote{{Start: 0, Dur: 60, Key: 36, Vel: 100, Channel: 9}, {Start: 60, Dur: 60, Key: 38, Vel: 100, Channel: 9}, {Start: 120, Dur: 60, Key: 42, Vel: 90, Channel: 9}})
 	up := fxSMF(t, 192, false, fxTune(192, 4))
 	return map[string][]byte{
 		"demo/a.mid":        tune,
@@ -29,15 +29,15 @@ func sourceFixtures(t testing.TB) map[string][]byte {
 		"demo/broken.mid":   tune[:30],
 		"demo/copy.MID":     tune,
 		"demo/readme.txt":   []byte("Fixtures for ingest tests; not MIDI, so a folder scan ignores this file.\n"),
-		"demo/songs.zip":    fxZip(t, fxZipEntry{name: "drums.mid", data: drums}, fxZipEntry{name: "up.mid", data: up}, fxZipEntry{name: "notes.txt", data: []byte("x")}),
-		"good.tar":          fxTar(t, false, fxTarEntry{name: "b/other.mid", data: other}, fxTarEntry{name: "a/tune.mid", data: tune}),
-		"good.tgz":          fxTar(t, true, fxTarEntry{name: "drums.mid.gz", data: fxGzip(t, drums)}, fxTarEntry{name: "tune.midi", data: tune}),
-		"good.zip":          fxZip(t, fxZipEntry{name: "z/tune.mid", data: tune}, fxZipEntry{name: "other.smf", data: other}),
-		"hostile.tar":       fxTar(t, false, fxTarEntry{name: "../../etc/x.mid", data: tune}, fxTarEntry{name: "/abs.mid", data: tune}, fxTarEntry{name: "l.mid", typ: tar.TypeSymlink, link: "/etc/passwd"}, fxTarEntry{name: "h.mid", typ: tar.TypeLink, link: "l.mid"}, fxTarEntry{name: "bomb.mid.gz", data: fxGzip(t, make([]byte, 2<<20))}),
-		"hostile.zip":       fxZip(t, fxZipEntry{name: "../up.mid", data: tune}, fxZipEntry{name: "s.mid", data: []byte("x"), mode: os.ModeSymlink | 0o777}, fxZipEntry{name: "bomb.mid", data: make([]byte, 2<<20)}),
-		"truncated.tar.gz":  fxTar(t, true, fxTarEntry{name: "a.mid", data: tune}, fxTarEntry{name: "b.mid", data: other})[:60],
+		"demo/songs.zip":    fxZip(t, fxZipEntry{Name: "drums.mid", Data: drums}, fxZipEntry{Name: "up.mid", Data: up}, fxZipEntry{Name: "notes.txt", Data: []byte("x")}),
+		"good.tar":          fxTar(t, false, fxTarEntry{Name: "b/other.mid", Data: other}, fxTarEntry{Name: "a/tune.mid", Data: tune}),
+		"good.tgz":          fxTar(t, true, fxTarEntry{Name: "drums.mid.gz", Data: fxGzip(t, drums)}, fxTarEntry{Name: "tune.midi", Data: tune}),
+		"good.zip":          fxZip(t, fxZipEntry{Name: "z/tune.mid", Data: tune}, fxZipEntry{Name: "other.smf", Data: other}),
+		"hostile.tar":       fxTar(t, false, fxTarEntry{Name: "../../etc/x.mid", Data: tune}, fxTarEntry{Name: "/abs.mid", Data: tune}, fxTarEntry{Name: "l.mid", Type: tar.TypeSymlink, Link: "/etc/passwd"}, fxTarEntry{Name: "h.mid", Type: tar.TypeLink, Link: "l.mid"}, fxTarEntry{Name: "bomb.mid.gz", Data: fxGzip(t, make([]byte, 2<<20))}),
+		"hostile.zip":       fxZip(t, fxZipEntry{Name: "../up.mid", Data: tune}, fxZipEntry{Name: "s.mid", Data: []byte("x"), Mode: os.ModeSymlink | 0o777}, fxZipEntry{Name: "bomb.mid", Data: make([]byte, 2<<20)}),
+		"truncated.tar.gz":  fxTar(t, true, fxTarEntry{Name: "a.mid", Data: tune}, fxTarEntry{Name: "b.mid", Data: other})[:60],
 		"notgzip.tgz":       tune,
-		"corrupt.zip":       fxZip(t, fxZipEntry{name: "a.mid", data: tune})[:40],
+		"corrupt.zip":       fxZip(t, fxZipEntry{Name: "a.mid", Data: tune})[:40],
 		"demo/sub/list.lst": []byte("../a.mid\n"), // a list inside a folder is not read: not a MIDI name
 	}
 }

@@ -35,10 +35,10 @@ func TestHostileArchives(t *testing.T) {
 	tune := fxSMF(t, 96, false, fxTune(96, 0))
 	lim := Limits{MaxEntries: 4, MaxEntrySize: 64 << 10, MaxTotalSize: 256 << 10, MaxBuffered: 1 << 10}
 	big := make([]byte, 100<<10)
-	many := []fxTarEntry{{name: "1.mid", data: tune}, {name: "2.mid", data: tune}, {name: "3.mid", data: tune}, {name: "4.mid", data: tune}, {name: "5.mid", data: tune}}
+	many := []fxTarEntry{{Name: "1.mid", Data: tune}, {Name: "2.mid", Data: tune}, {Name: "3.mid", Data: tune}, {Name: "4.mid", Data: tune}, {Name: "5.mid", Data: tune}}
 	var manyZip []fxZipEntry
 	for _, e := range many {
-		manyZip = append(manyZip, fxZipEntry{name: e.name, data: e.data})
+		manyZip = append(manyZip, fxZipEntry{Name: e.Name, Data: e.Data})
 	}
 	tests := []struct {
 		name string // archive file name
@@ -46,10 +46,10 @@ func TestHostileArchives(t *testing.T) {
 		want []outcome
 	}{
 		{"names.zip", fxZip(t,
-			fxZipEntry{name: "../up.mid", data: tune},
-			fxZipEntry{name: "/abs.mid", data: tune},
-			fxZipEntry{name: `a\..\..\win.mid`, data: tune},
-			fxZipEntry{name: "C:/drive.mid", data: tune},
+			fxZipEntry{Name: "../up.mid", Data: tune},
+			fxZipEntry{Name: "/abs.mid", Data: tune},
+			fxZipEntry{Name: `a\..\..\win.mid`, Data: tune},
+			fxZipEntry{Name: "C:/drive.mid", Data: tune},
 		), []outcome{
 			{"../up.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
 			{"/abs.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
@@ -57,15 +57,15 @@ func TestHostileArchives(t *testing.T) {
 			{`a\..\..\win.mid`, StatusSkipped, ErrUnsafePath.Error(), "", ""},
 		}},
 		{"links.zip", fxZip(t,
-			fxZipEntry{name: "link.mid", data: []byte("/etc/passwd"), mode: os.ModeSymlink | 0o777},
-			fxZipEntry{name: "ok.mid", data: tune},
+			fxZipEntry{Name: "link.mid", Data: []byte("/etc/passwd"), Mode: os.ModeSymlink | 0o777},
+			fxZipEntry{Name: "ok.mid", Data: tune},
 		), []outcome{
 			{"link.mid", StatusSkipped, ErrLinkEntry.Error(), "", ""},
 			{"ok.mid", StatusOK, "", "", ""},
 		}},
 		{"bomb.zip", fxZip(t,
-			fxZipEntry{name: "big.mid", data: big},
-			fxZipEntry{name: "big.mid.gz", data: fxGzip(t, make([]byte, 2<<20))},
+			fxZipEntry{Name: "big.mid", Data: big},
+			fxZipEntry{Name: "big.mid.gz", Data: fxGzip(t, make([]byte, 2<<20))},
 		), []outcome{
 			{"big.mid", StatusSkipped, ErrEntryTooLarge.Error(), "", ""},
 			{"big.mid.gz", StatusSkipped, ErrTooLarge.Error(), "", ""}, // over MaxFileSize once gunzipped
@@ -75,21 +75,21 @@ func TestHostileArchives(t *testing.T) {
 		}},
 		{"many.zip", fxZip(t, manyZip...), []outcome{{"", StatusSkipped, ErrTooManyEntries.Error(), "", ""}}},
 		{"total.zip", fxZip(t,
-			fxZipEntry{name: "a.bin", data: big}, fxZipEntry{name: "b.bin", data: big}, fxZipEntry{name: "c.bin", data: big},
+			fxZipEntry{Name: "a.bin", Data: big}, fxZipEntry{Name: "b.bin", Data: big}, fxZipEntry{Name: "c.bin", Data: big},
 		), []outcome{{"", StatusSkipped, ErrArchiveTooLarge.Error(), "", ""}}},
 		{"garbage.zip", []byte("PK\x03\x04 this is not a zip"), []outcome{{"", StatusSkipped, ErrBadArchive.Error(), "", ""}}},
 		{"entries.tar", fxTar(t, false,
-			fxTarEntry{name: "../../up.mid", data: tune},
-			fxTarEntry{name: "/abs.mid", data: tune},
-			fxTarEntry{name: "sym.mid", typ: tar.TypeSymlink, link: "../../etc/passwd"},
-			fxTarEntry{name: "hard.mid", typ: tar.TypeLink, link: "ok.mid"},
-			fxTarEntry{name: "dev.mid", typ: tar.TypeChar},
-			fxTarEntry{name: "fifo.mid", typ: tar.TypeFifo},
-			fxTarEntry{name: "big.mid", data: big},
-			fxTarEntry{name: "bomb.mid.gz", data: fxGzip(t, make([]byte, 3<<20))},
-			fxTarEntry{name: "notgz.mid.gz", data: tune},
-			fxTarEntry{name: "ok.mid", data: tune},
-			fxTarEntry{name: "sub/", typ: tar.TypeDir},
+			fxTarEntry{Name: "../../up.mid", Data: tune},
+			fxTarEntry{Name: "/abs.mid", Data: tune},
+			fxTarEntry{Name: "sym.mid", Type: tar.TypeSymlink, Link: "../../etc/passwd"},
+			fxTarEntry{Name: "hard.mid", Type: tar.TypeLink, Link: "ok.mid"},
+			fxTarEntry{Name: "dev.mid", Type: tar.TypeChar},
+			fxTarEntry{Name: "fifo.mid", Type: tar.TypeFifo},
+			fxTarEntry{Name: "big.mid", Data: big},
+			fxTarEntry{Name: "bomb.mid.gz", Data: fxGzip(t, make([]byte, 3<<20))},
+			fxTarEntry{Name: "notgz.mid.gz", Data: tune},
+			fxTarEntry{Name: "ok.mid", Data: tune},
+			fxTarEntry{Name: "sub/", Type: tar.TypeDir},
 		), []outcome{
 			{"../../up.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
 			{"/abs.mid", StatusSkipped, ErrUnsafePath.Error(), "", ""},
@@ -103,15 +103,15 @@ func TestHostileArchives(t *testing.T) {
 			{"sym.mid", StatusSkipped, ErrLinkEntry.Error(), "", ""},
 		}},
 		{"many.tgz", fxTar(t, true, many...), []outcome{{"", StatusSkipped, ErrTooManyEntries.Error(), "", ""}}},
-		{"total.tar.gz", fxTar(t, true, fxTarEntry{name: "a", data: big}, fxTarEntry{name: "b", data: big}, fxTarEntry{name: "c", data: big}),
+		{"total.tar.gz", fxTar(t, true, fxTarEntry{Name: "a", Data: big}, fxTarEntry{Name: "b", Data: big}, fxTarEntry{Name: "c", Data: big}),
 			[]outcome{{"", StatusSkipped, ErrArchiveTooLarge.Error(), "", ""}}},
-		{"cut.tar", fxTar(t, false, fxTarEntry{name: "a.mid", data: tune}, fxTarEntry{name: "b.mid", data: big[:5000]})[:2000],
+		{"cut.tar", fxTar(t, false, fxTarEntry{Name: "a.mid", Data: tune}, fxTarEntry{Name: "b.mid", Data: big[:5000]})[:2000],
 			[]outcome{
 				{"a.mid", StatusOK, "", "", ""},
 				{"b.mid", StatusSkipped, ErrBadArchive.Error(), "", ""}, // its header is there, its bytes are not
 				{"", StatusSkipped, ErrBadArchive.Error(), "", ""},      // the damage, after what could be read
 			}},
-		{"cut.tgz", fxTar(t, true, fxTarEntry{name: "a.mid", data: tune})[:30], []outcome{{"", StatusSkipped, ErrBadArchive.Error(), "", ""}}},
+		{"cut.tgz", fxTar(t, true, fxTarEntry{Name: "a.mid", Data: tune})[:30], []outcome{{"", StatusSkipped, ErrBadArchive.Error(), "", ""}}},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -151,7 +151,7 @@ func TestTarSortedMultiPass(t *testing.T) {
 	var want []outcome
 	for i := 9; i >= 0; i-- {
 		name := string(rune('a'+i)) + ".mid"
-		entries = append(entries, fxTarEntry{name: name, data: fxSMF(t, 96, false, []fxNote{{0, 96, uint8(40 + 3*i), 64, 0}, {96, 96 * uint32(i+1), 50, 64, 0}})})
+		entries = append(entries, fxTarEntry{Name: name, Data: fxSMF(t, 96, false, []fxNote{{Start: 0, Dur: 96, Key: uint8(40 + 3*i), Vel: 64}, {Start: 96, Dur: 96 * uint32(i+1), Key: 50, Vel: 64}})})
 	}
 	for i := 0; i <= 9; i++ {
 		want = append(want, outcome{string(rune('a'+i)) + ".mid", StatusOK, "", "", ""})

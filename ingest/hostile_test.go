@@ -348,7 +348,7 @@ func TestHostileArchiveBombs(t *testing.T) {
 		want []outcome
 	}{
 		{"bomb.mid.gz", gzBomb, []outcome{{"bomb.mid.gz", StatusSkipped, ErrTooLarge.Error(), "", ""}}},
-		{"deflate-bomb.zip", fxZip(t, fxZipEntry{name: "zeros.mid", data: zeros}, fxZipEntry{name: "ok.mid", data: tune}), []outcome{
+		{"deflate-bomb.zip", fxZip(t, fxZipEntry{Name: "zeros.mid", Data: zeros}, fxZipEntry{Name: "ok.mid", Data: tune}), []outcome{
 			{"deflate-bomb.zip/ok.mid", StatusOK, "", "", ""},
 			{"deflate-bomb.zip/zeros.mid", StatusSkipped, ErrTooLarge.Error(), "", ""}, // declared 16 MiB, over MaxFileSize
 		}},
@@ -358,18 +358,18 @@ func TestHostileArchiveBombs(t *testing.T) {
 		{"overstated.zip", fxZipDeflated(t, "tune.mid.gz", fxGzip(t, tune), declared), []outcome{
 			{"overstated.zip/tune.mid.gz", StatusSkipped, ErrBadArchive.Error(), "", ""}, // ends before its declared size
 		}},
-		{"gzbomb-in.zip", fxZip(t, fxZipEntry{name: "bomb.mid.gz", data: gzBomb}), []outcome{
+		{"gzbomb-in.zip", fxZip(t, fxZipEntry{Name: "bomb.mid.gz", Data: gzBomb}), []outcome{
 			{"gzbomb-in.zip/bomb.mid.gz", StatusSkipped, ErrTooLarge.Error(), "", ""},
 		}},
-		{"gzbomb-in.tgz", fxTar(t, true, fxTarEntry{name: "bomb.mid.gz", data: gzBomb}, fxTarEntry{name: "ok.mid", data: tune}), []outcome{
+		{"gzbomb-in.tgz", fxTar(t, true, fxTarEntry{Name: "bomb.mid.gz", Data: gzBomb}, fxTarEntry{Name: "ok.mid", Data: tune}), []outcome{
 			{"gzbomb-in.tgz/bomb.mid.gz", StatusSkipped, ErrTooLarge.Error(), "", ""},
 			{"gzbomb-in.tgz/ok.mid", StatusOK, "", "", ""},
 		}},
-		{"zeros.tgz", fxTar(t, true, fxTarEntry{name: "zeros.mid", data: zeros}, fxTarEntry{name: "ok.mid", data: tune}), []outcome{
+		{"zeros.tgz", fxTar(t, true, fxTarEntry{Name: "zeros.mid", Data: zeros}, fxTarEntry{Name: "ok.mid", Data: tune}), []outcome{
 			{"zeros.tgz/ok.mid", StatusOK, "", "", ""},
 			{"zeros.tgz/zeros.mid", StatusSkipped, ErrTooLarge.Error(), "", ""},
 		}},
-		{"zeros3.tgz", fxTar(t, true, fxTarEntry{name: "a.mid", data: zeros}, fxTarEntry{name: "b.mid", data: zeros}, fxTarEntry{name: "c.mid", data: zeros}), []outcome{
+		{"zeros3.tgz", fxTar(t, true, fxTarEntry{Name: "a.mid", Data: zeros}, fxTarEntry{Name: "b.mid", Data: zeros}, fxTarEntry{Name: "c.mid", Data: zeros}), []outcome{
 			{"zeros3.tgz", StatusSkipped, ErrArchiveTooLarge.Error(), "", ""}, // 48 MiB, over the 40 MiB total
 		}},
 		{"short.tar", short.Bytes(), []outcome{
@@ -424,18 +424,18 @@ func TestHostileArchiveNames(t *testing.T) {
 	dir := filepath.Join(root, "in")
 	fxWrite(t, dir, map[string][]byte{
 		"a.zip": fxZip(t,
-			fxZipEntry{name: "../../escape.mid", data: tune},
-			fxZipEntry{name: "/tmp/abs.mid", data: tune},
-			fxZipEntry{name: "evil", data: []byte("/"), mode: os.ModeSymlink | 0o777},
-			fxZipEntry{name: "evil/etc.mid", data: other},
+			fxZipEntry{Name: "../../escape.mid", Data: tune},
+			fxZipEntry{Name: "/tmp/abs.mid", Data: tune},
+			fxZipEntry{Name: "evil", Data: []byte("/"), Mode: os.ModeSymlink | 0o777},
+			fxZipEntry{Name: "evil/etc.mid", Data: other},
 		),
 		"b.tar": fxTar(t, false,
-			fxTarEntry{name: "../escape.mid", data: tune},
-			fxTarEntry{name: "/abs.mid", data: tune},
-			fxTarEntry{name: "lnk", typ: tar.TypeSymlink, link: "/"},
-			fxTarEntry{name: "lnk/etc.mid", data: other},
-			fxTarEntry{name: "hard.mid", typ: tar.TypeLink, link: "../../etc/passwd"},
-			fxTarEntry{name: "dir/../../x.mid", data: tune},
+			fxTarEntry{Name: "../escape.mid", Data: tune},
+			fxTarEntry{Name: "/abs.mid", Data: tune},
+			fxTarEntry{Name: "lnk", Type: tar.TypeSymlink, Link: "/"},
+			fxTarEntry{Name: "lnk/etc.mid", Data: other},
+			fxTarEntry{Name: "hard.mid", Type: tar.TypeLink, Link: "../../etc/passwd"},
+			fxTarEntry{Name: "dir/../../x.mid", Data: tune},
 		),
 	})
 	cwd, err := os.Getwd()
@@ -491,8 +491,8 @@ func TestArchiveLimitsExact(t *testing.T) {
 		for i := range k {
 			d := slices.Clone(tune)
 			d[len(d)-5] = byte(i) // distinct bytes, so no entry is an exact duplicate
-			z = append(z, fxZipEntry{name: fmt.Sprintf("%02d.mid", i), data: d})
-			tr = append(tr, fxTarEntry{name: fmt.Sprintf("%02d.mid", i), data: d})
+			z = append(z, fxZipEntry{Name: fmt.Sprintf("%02d.mid", i), Data: d})
+			tr = append(tr, fxTarEntry{Name: fmt.Sprintf("%02d.mid", i), Data: d})
 		}
 		return z, tr
 	}
@@ -544,7 +544,7 @@ func TestArchiveLimitsExact(t *testing.T) {
 	// One byte over the entry cap: that entry alone is skipped.
 	t.Run("entry size over cap", func(t *testing.T) {
 		z, _ := entries(2)
-		z[1].data = append(z[1].data, 0)
+		z[1].Data = append(z[1].Data, 0)
 		p := filepath.Join(t.TempDir(), "a.zip")
 		os.WriteFile(p, fxZip(t, z...), 0o644)
 		opts := DefaultOptions()

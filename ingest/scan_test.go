@@ -2,9 +2,6 @@ package ingest
 
 import (
 	"archive/tar"
-	"archive/zip"
-	"bytes"
-	"compress/gzip"
 	"context"
 	"errors"
 	"fmt"
@@ -13,72 +10,30 @@ import (
 	"reflect"
 	"runtime"
 	"slices"
-	"sort"
 	"strings"
 	"sync/atomic"
 	"testing"
 	"time"
 
-	"gitlab.com/gomidi/midi/v2"
-	gomidismf "gitlab.com/gomidi/midi/v2/smf"
+	"github.com/relshard/relshard/ingest/ingesttest"
 )
 
 // Fixture helpers: valid SMF bytes come from gomidi's writer (an independent
-// implementation of SMF 1.0), archives from the standard library's writers.
+// implementation of SMF 1.0), archives from the standard library's writers, through
+// package ingesttest; the short names keep the corpora below readable.
+type (
+	fxNote     = ingesttest.Note
+	fxZipEntry = ingesttest.ZipEntry
+	fxTarEntry = ingesttest.TarEntry
+)
 
-// fxNote is one note of a fixture: start and duration in ticks.
-type fxNote struct {
-	start, dur      uint32
-	key, vel, chann uint8
-}
-
-// fxSMF writes the tracks as an SMF at the given PPQ with gomidi: format 0 for one
-// track, format 1 for several, format 2 when format2 is set.
-func fxSMF(t testing.TB, ppq uint16, format2 bool, tracks ...[]fxNote) []byte {
-	t.Helper()
-	s := gomidismf.New()
-	if len(tracks) > 1 {
-		s = gomidismf.NewSMF1()
-	}
-	if format2 {
-		s = gomidismf.NewSMF2()
-	}
-	s.TimeFormat = gomidismf.MetricTicks(ppq)
-	for _, notes := range tracks {
-		type ev struct {
-			tick uint32
-			off  bool
-			msg  midi.Message
-		}
-		var evs []ev
-		for _, n := range notes {
-			evs = append(evs, ev{n.start, false, midi.NoteOn(n.chann, n.key, n.vel)},
-				ev{n.start + n.dur, true, midi.NoteOff(n.chann, n.key)})
-		}
-		// Offs before ons at the same tick, so that repeated notes pair as written.
-		sort.SliceStable(evs, func(i, j int) bool {
-			if evs[i].tick != evs[j].tick {
-				return evs[i].tick < evs[j].tick
-			}
-			return evs[i].off && !evs[j].off
-		})
-		var tr gomidismf.Track
-		var last uint32
-		for _, e := range evs {
-			tr.Add(e.tick-last, e.msg)
-			last = e.tick
-		}
-		tr.Close(0)
-		if err := s.Add(tr); err != nil {
-			t.Fatal(err)
-		}
-	}
-	var buf bytes.Buffer
-	if _, err := s.WriteTo(&buf); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
+var (
+	fxSMF   = ingesttest.SMF
+	fxGzip  = ingesttest.Gzip
+	fxZip   = ingesttest.Zip
+	fxTar   = ingesttest.Tar
+	fxWrite = ingesttest.WriteFiles
+)
 
 // fxTune is a short melody at the given PPQ, transposed by shift semitones.
 func fxTune(ppq uint32, shift uint8) []fxNote {
@@ -86,104 +41,14 @@ func fxTune(ppq uint32, shift uint8) []fxNote {
 	keys := []uint8{60, 62, 64, 65, 67, 65, 64, 62}
 	var ns []fxNote
 	for i, k := range keys {
-		ns = append(ns, fxNote{start: uint32(i) * q, dur: q / 2, key: k + shift, vel: 90})
+		ns = append(ns, fxNote{Start: uint32(i) * q, Dur: q / 2, Key: k + shift, Vel: 90})
 	}
 	return ns
 }
 
 // fxOther is a different melody (other rhythm and keys).
 func fxOther(ppq uint32) []fxNote {
-	return []fxNote{{0, ppq, 48, 70, 0}, {ppq, 2 * ppq, 55, 70, 0}, {3 * ppq, ppq / 3, 59, 70, 0}}
-}
-
-func fxGzip(t testing.TB, data []byte) []byte {
-	t.Helper()
-	var buf bytes.Buffer
-	zw := gzip.NewWriter(&buf)
-	zw.Write(data)
-	if err := zw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-// fxZipEntry is one zip entry; mode 0 is a regular file.
-type fxZipEntry struct {
-	name string
-	data []byte
-	mode os.FileMode
-}
-
-func fxZip(t testing.TB, entries ...fxZipEntry) []byte {
-	t.Helper()
-	var buf bytes.Buffer
-	zw := zip.NewWriter(&buf)
-	for _, e := range entries {
-		h := &zip.FileHeader{Name: e.name, Method: zip.Deflate}
-		if e.mode != 0 {
-			h.SetMode(e.mode)
-		}
-		w, err := zw.CreateHeader(h)
-		if err != nil {
-			t.Fatal(err)
-		}
-		w.Write(e.data)
-	}
-	if err := zw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-// fxTarEntry is one tar entry; typ 0 is a regular file.
-type fxTarEntry struct {
-	name string
-	data []byte
-	typ  byte
-	link string
-}
-
-func fxTar(t testing.TB, gz bool, entries ...fxTarEntry) []byte {
-	t.Helper()
-	var buf bytes.Buffer
-	tw := tar.NewWriter(&buf)
-	for _, e := range entries {
-		typ := e.typ
-		if typ == 0 {
-			typ = tar.TypeReg
-		}
-		h := &tar.Header{Name: e.name, Typeflag: typ, Mode: 0o644, Linkname: e.link, Format: tar.FormatPAX}
-		if typ == tar.TypeReg {
-			h.Size = int64(len(e.data))
-		}
-		if err := tw.WriteHeader(h); err != nil {
-			t.Fatal(err)
-		}
-		if typ == tar.TypeReg {
-			tw.Write(e.data)
-		}
-	}
-	if err := tw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	if gz {
-		return fxGzip(t, buf.Bytes())
-	}
-	return buf.Bytes()
-}
-
-// fxWrite writes files (relative path -> bytes) under dir.
-func fxWrite(t testing.TB, dir string, files map[string][]byte) {
-	t.Helper()
-	for name, data := range files {
-		p := filepath.Join(dir, filepath.FromSlash(name))
-		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
-			t.Fatal(err)
-		}
-		if err := os.WriteFile(p, data, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
+	return []fxNote{{Start: 0, Dur: ppq, Key: 48, Vel: 70}, {Start: ppq, Dur: 2 * ppq, Key: 55, Vel: 70}, {Start: 3 * ppq, Dur: ppq / 3, Key: 59, Vel: 70}}
 }
 
 // outcome is the part of a result the accounting tests compare.
@@ -226,13 +91,13 @@ func mixedFolder(t testing.TB) (string, []outcome) {
 	dir := filepath.Join(t.TempDir(), "mixed")
 	tune := fxSMF(t, 96, false, fxTune(96, 0))
 	other := fxSMF(t, 480, false, fxOther(480))
-	third := fxSMF(t, 120, false, []fxNote{{0, 60, 72, 100, 0}, {60, 60, 74, 100, 0}})
-	fourth := fxSMF(t, 240, false, []fxNote{{0, 30, 36, 100, 9}, {30, 30, 38, 100, 9}, {60, 30, 42, 100, 9}})
-	fifth := fxSMF(t, 192, false, []fxNote{{0, 100, 40, 80, 1}, {0, 100, 47, 80, 1}})
+	third := fxSMF(t, 120, false, []fxNote{{Start: 0, Dur: 60, Key: 72, Vel: 100}, {Start: 60, Dur: 60, Key: 74, Vel: 100}})
+	fourth := fxSMF(t, 240, false, []fxNote{{Start: 0, Dur: 30, Key: 36, Vel: 100, Channel: 9}, {Start: 30, Dur: 30, Key: 38, Vel: 100, Channel: 9}, {Start: 60, Dur: 30, Key: 42, Vel: 100, Channel: 9}})
+	fifth := fxSMF(t, 192, false, []fxNote{{Start: 0, Dur: 100, Key: 40, Vel: 80, Channel: 1}, {Start: 0, Dur: 100, Key: 47, Vel: 80, Channel: 1}})
 	// Split over two tracks and re-timed at another PPQ: a musical duplicate of tune.
 	t1, t2 := fxTune(384, 0)[:4], fxTune(384, 0)[4:]
 	for i := range t2 {
-		t2[i].chann = 3
+		t2[i].Channel = 3
 	}
 	split := fxSMF(t, 384, false, t1, t2)
 	noNotes := fxSMF(t, 96, false, nil)
@@ -250,19 +115,19 @@ func mixedFolder(t testing.TB) (string, []outcome) {
 		"big.mid":           append(slices.Clone(tune), make([]byte, 1<<20)...),
 		"bomb.mid.gz":       fxGzip(t, make([]byte, 2<<20)),
 		"h.zip": fxZip(t,
-			fxZipEntry{name: "x.mid", data: fourth},
-			fxZipEntry{name: "readme.txt", data: []byte("hello")},
-			fxZipEntry{name: "y.mid", data: []byte("RIFF....not midi")},
-			fxZipEntry{name: "dir/", mode: os.ModeDir | 0o755},
+			fxZipEntry{Name: "x.mid", Data: fourth},
+			fxZipEntry{Name: "readme.txt", Data: []byte("hello")},
+			fxZipEntry{Name: "y.mid", Data: []byte("RIFF....not midi")},
+			fxZipEntry{Name: "dir/", Mode: os.ModeDir | 0o755},
 		),
 		"i.tar": fxTar(t, false,
-			fxTarEntry{name: "z.mid", data: fxSMF(t, 96, false, fxTune(96, 5))},
-			fxTarEntry{name: "../evil.mid", data: tune},
-			fxTarEntry{name: "link.mid", typ: tar.TypeSymlink, link: "z.mid"},
+			fxTarEntry{Name: "z.mid", Data: fxSMF(t, 96, false, fxTune(96, 5))},
+			fxTarEntry{Name: "../evil.mid", Data: tune},
+			fxTarEntry{Name: "link.mid", Type: tar.TypeSymlink, Link: "z.mid"},
 		),
 		"j.tgz": fxTar(t, true,
-			fxTarEntry{name: "w.mid", data: split},
-			fxTarEntry{name: "about.txt", data: []byte("x")},
+			fxTarEntry{Name: "w.mid", Data: split},
+			fxTarEntry{Name: "about.txt", Data: []byte("x")},
 		),
 	}
 	fxWrite(t, dir, files)
@@ -365,8 +230,8 @@ func TestScanDuplicates(t *testing.T) {
 	tune := fxSMF(t, 96, false, fxTune(96, 0))
 	chans := fxTune(96, 0)
 	for i := range chans {
-		chans[i].chann = uint8(i % 3)
-		chans[i].vel = 30 + uint8(i)
+		chans[i].Channel = uint8(i % 3)
+		chans[i].Vel = 30 + uint8(i)
 	}
 	half := fxTune(96, 0)
 	split := fxSMF(t, 96, false, half[:3], half[3:])
@@ -424,7 +289,7 @@ func TestScanFormat2Duplicates(t *testing.T) {
 	a := fxSMF(t, 96, false, fxTune(96, 0))
 	b := fxSMF(t, 96, false, fxOther(96))
 	both := fxSMF(t, 480, true, fxOther(480), fxTune(480, 3))
-	partly := fxSMF(t, 96, true, fxTune(96, 0), []fxNote{{0, 10, 99, 1, 0}})
+	partly := fxSMF(t, 96, true, fxTune(96, 0), []fxNote{{Start: 0, Dur: 10, Key: 99, Vel: 1}})
 	dir := filepath.Join(t.TempDir(), "f2")
 	fxWrite(t, dir, map[string][]byte{"1.mid": a, "2.mid": b, "3.mid": both, "4.mid": partly})
 	got := scanAll(t, []Source{{Path: dir}}, DefaultOptions())
@@ -445,7 +310,7 @@ func TestScanFormat2Duplicates(t *testing.T) {
 func TestScanStrict(t *testing.T) {
 	tune := fxSMF(t, 96, false, fxTune(96, 0))
 	dir := filepath.Join(t.TempDir(), "s")
-	fxWrite(t, dir, map[string][]byte{"a.mid": tune, "b.mid": []byte("MThd"), "c.mid": tune, "zz.zip": fxZip(t, fxZipEntry{name: "n.txt"})})
+	fxWrite(t, dir, map[string][]byte{"a.mid": tune, "b.mid": []byte("MThd"), "c.mid": tune, "zz.zip": fxZip(t, fxZipEntry{Name: "n.txt"})})
 	opts := DefaultOptions()
 	opts.Strict = true
 	var seen []string
@@ -461,7 +326,7 @@ func TestScanStrict(t *testing.T) {
 	}
 	// Not MIDI and filter skips are no errors under Strict.
 	dir2 := filepath.Join(t.TempDir(), "s2")
-	fxWrite(t, dir2, map[string][]byte{"a.mid": fxSMF(t, 96, false, nil), "zz.zip": fxZip(t, fxZipEntry{name: "n.txt"})})
+	fxWrite(t, dir2, map[string][]byte{"a.mid": fxSMF(t, 96, false, nil), "zz.zip": fxZip(t, fxZipEntry{Name: "n.txt"})})
 	if err := Scan(context.Background(), []Source{{Path: dir2}}, opts, func(*Result) error { return nil }); err != nil {
 		t.Errorf("Strict on filter and non-MIDI skips: %v", err)
 	}

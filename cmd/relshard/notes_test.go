@@ -13,6 +13,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"github.com/relshard/relshard/ingest/ingesttest"
 )
 
 // TestNotesJSONFields: relshard notes --json prints an object with exactly the
@@ -20,7 +22,8 @@ import (
 func TestNotesJSONFields(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "x.mid.gz")
-	writeFiles(t, dir, map[string][]byte{"x.mid.gz": cmdGzip(t, cmdSMF(t, 96, cmdNote{0, 96, 60, 0}, cmdNote{96, 48, 38, 9}))})
+	x := ingesttest.SMF(t, 96, false, []ingesttest.Note{note(0, 96, 60, 0), note(96, 48, 38, 9)})
+	ingesttest.WriteFiles(t, dir, map[string][]byte{"x.mid.gz": ingesttest.Gzip(t, x)})
 	code, out, errOut := runCmd(t, "notes", "--json", p)
 	if code != exitOK {
 		t.Fatalf("exit %d: %s", code, errOut)
@@ -53,7 +56,7 @@ func TestNotesJSONFields(t *testing.T) {
 	if code, out, _ := runCmd(t, "notes", p); code != exitOK || !strings.Contains(out, "tempo map:") || !strings.Contains(out, "D2") {
 		t.Errorf("table: exit %d\n%s", code, out)
 	}
-	writeFiles(t, dir, map[string][]byte{"bad.mid": []byte("MThd\x00\x00\x00\x06\x00")})
+	ingesttest.WriteFiles(t, dir, map[string][]byte{"bad.mid": []byte("MThd\x00\x00\x00\x06\x00")})
 	if code, _, errOut := runCmd(t, "notes", filepath.Join(dir, "bad.mid")); code != exitFailed || !strings.Contains(errOut, "bad.mid") {
 		t.Errorf("bad file: exit %d, %q", code, errOut)
 	}

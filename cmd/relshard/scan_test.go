@@ -1,110 +1,25 @@
 package main
 
 import (
-	"archive/tar"
-	"archive/zip"
 	"bytes"
-	"compress/gzip"
 	"encoding/json"
 	"os"
 	"path/filepath"
 	"reflect"
-	"sort"
 	"strings"
 	"testing"
 
-	"gitlab.com/gomidi/midi/v2"
-	"gitlab.com/gomidi/midi/v2/smf"
+	"github.com/relshard/relshard/ingest/ingesttest"
 )
 
 // Fixtures: valid SMF bytes from gomidi's writer (an independent SMF 1.0
-// implementation), archives from the standard library's writers.
+// implementation), archives from the standard library's writers, through package
+// ingesttest.
 
-type cmdNote struct {
-	start, dur uint32
-	key, ch    uint8
-}
-
-func cmdSMF(t *testing.T, ppq uint16, notes ...cmdNote) []byte {
-	t.Helper()
-	s := smf.New()
-	s.TimeFormat = smf.MetricTicks(ppq)
-	type ev struct {
-		tick uint32
-		off  bool
-		msg  midi.Message
-	}
-	var evs []ev
-	for _, n := range notes {
-		evs = append(evs, ev{n.start, false, midi.NoteOn(n.ch, n.key, 100)}, ev{n.start + n.dur, true, midi.NoteOff(n.ch, n.key)})
-	}
-	sort.SliceStable(evs, func(i, j int) bool {
-		if evs[i].tick != evs[j].tick {
-			return evs[i].tick < evs[j].tick
-		}
-		return evs[i].off && !evs[j].off
-	})
-	var tr smf.Track
-	var last uint32
-	for _, e := range evs {
-		tr.Add(e.tick-last, e.msg)
-		last = e.tick
-	}
-	tr.Close(0)
-	s.Add(tr)
-	var buf bytes.Buffer
-	if _, err := s.WriteTo(&buf); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-func cmdGzip(t *testing.T, b []byte) []byte {
-	var buf bytes.Buffer
-	zw := gzip.NewWriter(&buf)
-	zw.Write(b)
-	zw.Close()
-	return buf.Bytes()
-}
-
-func cmdZip(t *testing.T, files ...[2]string) []byte {
-	var buf bytes.Buffer
-	zw := zip.NewWriter(&buf)
-	for _, f := range files {
-		w, err := zw.Create(f[0])
-		if err != nil {
-			t.Fatal(err)
-		}
-		w.Write([]byte(f[1]))
-	}
-	if err := zw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-func cmdTar(t *testing.T, files ...[2]string) []byte {
-	var buf bytes.Buffer
-	tw := tar.NewWriter(&buf)
-	for _, f := range files {
-		tw.WriteHeader(&tar.Header{Name: f[0], Mode: 0o644, Size: int64(len(f[1])), Typeflag: tar.TypeReg})
-		tw.Write([]byte(f[1]))
-	}
-	if err := tw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-func writeFiles(t *testing.T, dir string, files map[string][]byte) {
-	t.Helper()
-	for name, data := range files {
-		p := filepath.Join(dir, filepath.FromSlash(name))
-		os.MkdirAll(filepath.Dir(p), 0o755)
-		if err := os.WriteFile(p, data, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
+// note is a fixture note at velocity 100: its start and duration in ticks, key and
+// channel.
+func note(start, dur uint32, key, ch uint8) ingesttest.Note {
+	return ingesttest.Note{Start: start, Dur: dur, Key: key, Vel: 100, Channel: ch}
 }
 
 // runCmd runs the CLI on buffers and returns the exit code and outputs.
@@ -138,19 +53,27 @@ type scanJSON struct {
 // files, and returns it with the status of each input file in the stable order.
 func mixedCorpus(t *testing.T) (string, []fileJSON) {
 	dir := filepath.Join(t.TempDir(), "corpus")
-	a := cmdSMF(t, 96, cmdNote{0, 96, 60, 0}, cmdNote{96, 96, 64, 0}, cmdNote{192, 192, 67, 0})
-	b := cmdSMF(t, 480, cmdNote{0, 240, 50, 1}, cmdNote{480, 240, 52, 1})
-	c := cmdSMF(t, 120, cmdNote{0, 60, 36, 9}, cmdNote{60, 60, 38, 9}, cmdNote{120, 60, 40, 3})
-	d := cmdSMF(t, 192, cmdNote{0, 192, 70, 2})
-	transposed := cmdSMF(t, 96, cmdNote{0, 96, 62, 0}, cmdNote{96, 96, 66, 0}, cmdNote{192, 192, 69, 0})
-	writeFiles(t, dir, map[string][]byte{
+	a := ingesttest.SMF(t, 96, false, []ingesttest.Note{note(0, 96, 60, 0), note(96, 96, 64, 0), note(192, 192, 67, 0)})
+	b := ingesttest.SMF(t, 480, false, []ingesttest.Note{note(0, 240, 50, 1), note(480, 240, 52, 1)})
+	c := ingesttest.SMF(t, 120, false, []ingesttest.Note{note(0, 60, 36, 9), note(60, 60, 38, 9), note(120, 60, 40, 3)})
+	d := ingesttest.SMF(t, 192, false, []ingesttest.Note{note(0, 192, 70, 2)})
+	transposed := ingesttest.SMF(t, 96, false, []ingesttest.Note{note(0, 96, 62, 0), note(96, 96, 66, 0), note(192, 192, 69, 0)})
+	set := ingesttest.Zip(t,
+		ingesttest.ZipEntry{Name: "c.mid", Data: c},
+		ingesttest.ZipEntry{Name: "notes.txt", Data: []byte("x")},
+		ingesttest.ZipEntry{Name: "copy.mid", Data: a})
+	set2 := ingesttest.Tar(t, false,
+		ingesttest.TarEntry{Name: "d.mid", Data: d},
+		ingesttest.TarEntry{Name: "../escape.mid", Data: d},
+		ingesttest.TarEntry{Name: "t.mid", Data: transposed})
+	ingesttest.WriteFiles(t, dir, map[string][]byte{
 		"a.mid":           a,
-		"b.mid.gz":        cmdGzip(t, b),
+		"b.mid.gz":        ingesttest.Gzip(t, b),
 		"broken.mid":      a[:20],
 		"magic.midi":      []byte("this is not MIDI at all"),
 		"readme.md":       []byte("ignored in folders"),
-		"set.zip":         cmdZip(t, [2]string{"c.mid", string(c)}, [2]string{"notes.txt", "x"}, [2]string{"copy.mid", string(a)}),
-		"more/set2.tar":   cmdTar(t, [2]string{"d.mid", string(d)}, [2]string{"../escape.mid", string(d)}, [2]string{"t.mid", string(transposed)}),
+		"set.zip":         set,
+		"more/set2.tar":   set2,
 		"more/z.MID":      b,
 		"more/bad.mid.gz": a,
 	})
@@ -213,7 +136,7 @@ func TestScanCommandMixed(t *testing.T) {
 
 func TestScanCommandExitCodes(t *testing.T) {
 	good := filepath.Join(t.TempDir(), "good")
-	writeFiles(t, good, map[string][]byte{"a.mid": cmdSMF(t, 96, cmdNote{0, 96, 60, 0})})
+	ingesttest.WriteFiles(t, good, map[string][]byte{"a.mid": ingesttest.SMF(t, 96, false, []ingesttest.Note{note(0, 96, 60, 0)})})
 	dir, _ := mixedCorpus(t)
 	tests := []struct {
 		name string
