@@ -7,11 +7,17 @@ package export
 // group/list/element layout), so Arrow-based readers see list<int32> and
 // list<int16>. All four lists of a row have the same length: entry i of each
 // describes token i.
+//
+// Before compression the token, pitch and instrument elements are dictionary
+// encoded (RLE_DICTIONARY: a few hundred token ids, at most 130 pitch and
+// instrument values) and the times delta encoded, both standard Parquet encodings
+// that readers decode on their own. Stored plain, pitch and instrument took four
+// bytes a token each, as Parquet keeps 16-bit integers in INT32.
 type Row struct {
-	Tokens []int32 `parquet:"tokens,list"`                        // vocabulary ids
-	Time   []int32 `parquet:"time,list" parquet-element:",delta"` // each token's time in the unit named by the time_unit metadata
-	Pitch  []int16 `parquet:"pitch,list"`                         // MIDI key 0-127, or -1 for tokens without a pitch
-	Inst   []int16 `parquet:"inst,list"`                          // -1 none, 0-127 General MIDI program, 128 drums
+	Tokens []int32 `parquet:"tokens,list" parquet-element:",dict"` // vocabulary ids
+	Time   []int32 `parquet:"time,list" parquet-element:",delta"`  // each token's time in the unit named by the time_unit metadata
+	Pitch  []int16 `parquet:"pitch,list" parquet-element:",dict"`  // MIDI key 0-127, or -1 for tokens without a pitch
+	Inst   []int16 `parquet:"inst,list" parquet-element:",dict"`   // -1 none, 0-127 General MIDI program, 128 drums
 
 	Piece       string  `parquet:"piece,dict"`        // stable piece id: dataset, source and piece index within the file
 	Dataset     string  `parquet:"dataset,dict"`      // dataset name of the input
