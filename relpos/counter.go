@@ -66,7 +66,7 @@ type Counter struct {
 	tab        []int32
 	hist       []int64
 	unit       int64   // the window's time unit (timeUnit), for rankTable
-	rank       []int64 // rankTable: tokens at or below each value step
+	rank       []int32 // rankTable: tokens at or below each value step (a window's tokens fit)
 	steps      []int64 // rankTable: each group's value in steps from the first
 }
 
@@ -609,7 +609,7 @@ func (c *Counter) countPointers(v, cuts []int64, idx []int32, below, small []int
 	}
 	// With a rank table a far cut costs a lookup a group instead of a pointer's two
 	// steps, so the split moves nearer zero and the walk shortens.
-	table := c.unit > 0 && span/c.unit+1 <= int64(maxRankPerGroup*len(vals))
+	table := c.unit > 0 && span/c.unit+1 <= int64(maxRankPerGroup*len(vals)) && n <= math.MaxInt32
 	weight := pointerWeight
 	if table {
 		weight = rankWeight
@@ -672,7 +672,7 @@ func (c *Counter) rankTable(vals, cnts []int64, span int64) {
 	for g, v := range vals {
 		q := (v - vals[0]) / unit
 		steps = append(steps, q)
-		rank[q] = cnts[g]
+		rank[q] = int32(cnts[g])
 	}
 	for i := int64(1); i < n; i++ {
 		rank[i] += rank[i-1]
@@ -703,7 +703,7 @@ func (c *Counter) rankBelow(cnts []int64, unit, x int64) int64 {
 	g, _ := slices.BinarySearch(steps, s) // the first group at s or more steps
 	var sum int64
 	for ; g < len(steps); g++ {
-		sum += cnts[g] * rank[steps[g]-s]
+		sum += cnts[g] * int64(rank[steps[g]-s])
 	}
 	return sum
 }
