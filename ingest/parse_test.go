@@ -265,7 +265,7 @@ func TestBrokenFiles(t *testing.T) {
 		track  int
 		offset int64
 	}{
-		{"empty", nil, ParseOptions{}, ErrBadMagic, -1, 0},
+		{"empty", nil, ParseOptions{}, ErrEmpty, -1, 0},
 		{"wrong magic", cat([]byte("MThx"), good[4:]), ParseOptions{}, ErrBadMagic, -1, 0},
 		{"not MIDI at all", []byte("<html><body>hello</body></html>"), ParseOptions{}, ErrBadMagic, -1, 0},
 		{"truncated magic", []byte("MTh"), ParseOptions{}, ErrTruncated, -1, 3},

@@ -25,7 +25,7 @@ func TestSummary(t *testing.T) {
 	want := DatasetSummary{
 		Dataset: "total", Files: 19, OK: 5, Skipped: 11, Duplicates: 3,
 		SkippedBy: map[string]int{
-			ErrTooLarge.Error(): 2, ErrNotGzip.Error(): 1, ErrChunkLength.Error(): 1, ErrBadMagic.Error(): 2,
+			ErrTooLarge.Error(): 2, ErrNotGzip.Error(): 1, ErrChunkLength.Error(): 1, ErrBadMagic.Error(): 1, ErrEmpty.Error(): 1,
 			ErrNotMIDI.Error(): 2, ErrUnsafePath.Error(): 1, ErrLinkEntry.Error(): 1, ErrTooFewNotes.Error(): 1,
 		},
 		DupsBy:    map[DuplicateKind]int{DupExact: 1, DupMusical: 1, DupTransposed: 1},

@@ -139,7 +139,7 @@ func mixedFolder(t testing.TB) (string, []outcome) {
 		{"c.mid.gz", StatusOK, "", "", ""},
 		{"d.mid.gz", StatusSkipped, ErrNotGzip.Error(), "", ""},
 		{"e.mid", StatusSkipped, ErrChunkLength.Error(), "", ""}, // last track cut short
-		{"empty.smf", StatusSkipped, ErrBadMagic.Error(), "", ""},
+		{"empty.smf", StatusSkipped, ErrEmpty.Error(), "", ""},
 		{"h.zip/readme.txt", StatusSkipped, ErrNotMIDI.Error(), "", ""},
 		{"h.zip/x.mid", StatusOK, "", "", ""},
 		{"h.zip/y.mid", StatusSkipped, ErrBadMagic.Error(), "", ""},

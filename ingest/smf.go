@@ -174,8 +174,12 @@ func (r *Reader) fail(track, off int, err error) error {
 
 func (r *Reader) readHeader() error {
 	d := r.data
+	if len(d) == 0 {
+		// common in scraped corpora (failed downloads), and worth its own reason
+		return r.fail(-1, 0, ErrEmpty)
+	}
 	if len(d) < 4 {
-		if len(d) == 0 || string(d) != "MThd"[:len(d)] {
+		if string(d) != "MThd"[:len(d)] {
 			return r.fail(-1, 0, ErrBadMagic)
 		}
 		return r.fail(-1, len(d), ErrTruncated)

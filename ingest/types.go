@@ -119,6 +119,7 @@ const (
 // Sentinel errors wrapped by ParseError; test with errors.Is.
 var (
 	ErrTruncated         = errors.New("truncated")
+	ErrEmpty             = errors.New("empty file")
 	ErrBadMagic          = errors.New("not a Standard MIDI File (bad magic)")
 	ErrChunkLength       = errors.New("chunk length past end of data")
 	ErrBadVLQ            = errors.New("invalid variable-length quantity")

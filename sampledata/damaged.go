@@ -32,7 +32,7 @@ type DamagedCase struct {
 // chunk is "MThd", a 4-byte length (6), then format (bytes 8-9), track count (10-11)
 // and division (12-13); track chunks follow from byte 14.
 var damagedCases = []DamagedCase{
-	{Name: "empty", WantTrack: -1, WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",
+	{Name: "empty", WantTrack: -1, WantErr: "ErrEmpty", WantText: "byte 0: empty file", Ext: ".mid",
 		Doc:   "zero bytes: a file created but never written",
 		build: func(*rng, []byte) []byte { return []byte{} }},
 	{Name: "random-bytes", WantTrack: -1, WantErr: "ErrBadMagic", WantText: "byte 0: not a Standard MIDI File", Ext: ".mid",

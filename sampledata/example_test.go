@@ -35,7 +35,7 @@ func ExampleDamagedCases() {
 		fmt.Printf("%-28s %-20s track %2d  %q\n", c.Name+c.Ext, c.WantErr, c.WantTrack, c.WantText)
 	}
 	// Output:
-	// empty.mid                    ErrBadMagic          track -1  "byte 0: not a Standard MIDI File"
+	// empty.mid                    ErrEmpty             track -1  "byte 0: empty file"
 	// random-bytes.mid             ErrBadMagic          track -1  "byte 0: not a Standard MIDI File"
 	// bad-magic.mid                ErrBadMagic          track -1  "byte 0: not a Standard MIDI File"
 	// bad-header-format.mid        ErrBadHeader         track -1  "byte 8: bad header: format 3"

@@ -16,6 +16,7 @@ import (
 var sentinels = map[string]error{
 	"ErrTruncated":         ingest.ErrTruncated,
 	"ErrBadMagic":          ingest.ErrBadMagic,
+	"ErrEmpty":             ingest.ErrEmpty,
 	"ErrChunkLength":       ingest.ErrChunkLength,
 	"ErrBadVLQ":            ingest.ErrBadVLQ,
 	"ErrRunningStatus":     ingest.ErrRunningStatus,
