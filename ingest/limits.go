@@ -95,15 +95,7 @@ func readCappedInto(r io.Reader, buf []byte, max, sizeHint int64, tooBig func() 
 			if int64(len(b)) > max {
 				break
 			}
-			// Double, as bytes.Buffer does (append grows large slices by a quarter,
-			// which allocates more in all), but never past the cap and one byte.
-			c := 2 * cap(b)
-			if int64(c) > max+1 {
-				c = int(max + 1)
-			}
-			nb := make([]byte, len(b), c)
-			copy(nb, b)
-			b = nb
+			b = growCapped(b, max)
 		}
 		n, err := lr.Read(b[len(b):cap(b)])
 		b = b[:len(b)+n]
@@ -118,6 +110,16 @@ func readCappedInto(r io.Reader, buf []byte, max, sizeHint int64, tooBig func() 
 		return nil, tooBig()
 	}
 	return b, nil
+}
+
+// growCapped returns b, full and at most max bytes long, in a buffer of twice its
+// capacity, as bytes.Buffer grows (append grows large slices by a quarter, which
+// allocates more in all), but never past max and one byte: reading one byte more
+// than the cap shows that a file passes it.
+func growCapped(b []byte, max int64) []byte {
+	nb := make([]byte, len(b), min(2*int64(cap(b)), max+1))
+	copy(nb, b)
+	return nb
 }
 
 // gzipMagic is the two-byte ID of a gzip member (RFC 1952, section 2.3.1).

@@ -53,11 +53,7 @@ func readRegular(path string, buf []byte, max int64, tooBig func() error) ([]byt
 			if int64(len(b)) > max {
 				return nil, tooBig()
 			}
-			// Double, as readCappedInto does, never past the cap and one byte.
-			c := min(2*int64(cap(b)), max+1)
-			nb := make([]byte, len(b), c)
-			copy(nb, b)
-			b = nb
+			b = growCapped(b, max)
 		}
 		free := b[len(b):cap(b)]
 		n, err := retryEINTR(func() (int, error) { return syscall.Read(fd, free) })

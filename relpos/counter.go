@@ -622,7 +622,7 @@ func (c *Counter) countPointers(v, cuts []int64, idx []int32, below, small []int
 	if table {
 		c.rankTable(vals, cnts, span)
 		for k := first; k < split; k++ {
-			below[k] += c.rankBelow(cnts, c.unit, cuts[k])
+			below[k] += c.rankBelow(cnts, cuts[k])
 		}
 		return
 	}
@@ -697,8 +697,8 @@ const maxRankPerGroup = 64
 // vals[g] + x (x < 0) are those at most steps[g] − ⌊−x/unit⌋ − 1 steps after the first
 // (a whole number of steps is below vals[g] − |x| exactly when it is at most that), a
 // lookup for each group with no branch to mispredict.
-func (c *Counter) rankBelow(cnts []int64, unit, x int64) int64 {
-	s := -x/unit + 1
+func (c *Counter) rankBelow(cnts []int64, x int64) int64 {
+	s := -x/c.unit + 1
 	steps, rank := c.steps, c.rank
 	g, _ := slices.BinarySearch(steps, s) // the first group at s or more steps
 	var sum int64

@@ -254,7 +254,7 @@ func TestCountMatchesNaiveTimeUnits(t *testing.T) {
 				if x >= 0 {
 					continue
 				}
-				if got, want := c.rankBelow(cnts, unit, x), pointerBelow(vals, cnts, pre, x); got != want {
+				if got, want := c.rankBelow(cnts, x), pointerBelow(vals, cnts, pre, x); got != want {
 					t.Errorf("unit %d, cut %d: rankBelow %d, pointerBelow %d", tt.unit, x, got, want)
 				}
 			}
