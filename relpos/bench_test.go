@@ -2,12 +2,10 @@ package relpos
 
 import (
 	"math/rand/v2"
-	"os"
 	"path/filepath"
 	"slices"
 	"testing"
 
-	"github.com/relshard/relshard/ingest"
 	"github.com/relshard/relshard/tokenize"
 )
 
@@ -173,24 +171,10 @@ func BenchmarkCountReal(b *testing.B) {
 				b.Fatal(err)
 			}
 			var windows [][]tokenize.Token
-			for _, p := range paths {
-				data, err := os.ReadFile(p)
-				if err != nil {
-					b.Fatal(err)
-				}
-				pieces, err := ingest.Parse(p, data, ingest.DefaultParseOptions())
-				if err != nil {
-					b.Fatal(err)
-				}
-				for i := range pieces {
-					if err := e.Windows(&pieces[i], func(w tokenize.Window) error {
-						windows = append(windows, slices.Clone(w.Tokens))
-						return nil
-					}); err != nil {
-						b.Fatal(err)
-					}
-				}
-			}
+			eachWindow(b, e, paths, func(w tokenize.Window) error {
+				windows = append(windows, slices.Clone(w.Tokens))
+				return nil
+			})
 			c, err := NewCounter(DefaultConfig())
 			if err != nil {
 				b.Fatal(err)

@@ -77,31 +77,16 @@ func TestCountCorpus(t *testing.T) {
 	}
 	var want Counts
 	windows := 0
-	for _, name := range []string{"a.mid", "b.mid"} {
-		data, err := os.ReadFile(filepath.Join(dir, name))
-		if err != nil {
-			t.Fatal(err)
+	eachWindow(t, enc, []string{filepath.Join(dir, "a.mid"), filepath.Join(dir, "b.mid")}, func(w tokenize.Window) error {
+		got, err := c.CountNaive(w.Tokens)
+		if windows == 0 {
+			want = got
+		} else {
+			want.add(got)
 		}
-		pieces, err := ingest.Parse(name, data, ingest.DefaultParseOptions())
-		if err != nil {
-			t.Fatal(err)
-		}
-		for i := range pieces {
-			err := enc.Windows(&pieces[i], func(w tokenize.Window) error {
-				got, err := c.CountNaive(w.Tokens)
-				if windows == 0 {
-					want = got
-				} else {
-					want.add(got)
-				}
-				windows++
-				return err
-			})
-			if err != nil {
-				t.Fatal(err)
-			}
-		}
-	}
+		windows++
+		return err
+	})
 	if windows < 4 {
 		t.Fatalf("only %d windows", windows)
 	}
@@ -138,6 +123,27 @@ func TestCountCorpus(t *testing.T) {
 	}
 }
 
+// eachWindow parses each file at paths and calls fn with every window enc cuts from
+// its pieces.
+func eachWindow(t testing.TB, enc *tokenize.Encoder, paths []string, fn func(tokenize.Window) error) {
+	t.Helper()
+	for _, p := range paths {
+		data, err := os.ReadFile(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		pieces, err := ingest.Parse(filepath.Base(p), data, ingest.DefaultParseOptions())
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i := range pieces {
+			if err := enc.Windows(&pieces[i], fn); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+}
+
 // openMSXDir holds the MIDI files of Debian's openttd-openmsx package.
 const openMSXDir = "/usr/share/games/openttd/baseset/openmsx"
 
@@ -166,30 +172,16 @@ func TestCountCorpusOpenMSX(t *testing.T) {
 	// Naive counts are O(L²): keep to the first three files.
 	var want Counts
 	n := 0
-	for _, f := range files[:3] {
-		data, err := os.ReadFile(f)
-		if err != nil {
-			t.Fatal(err)
+	eachWindow(t, enc, files[:3], func(w tokenize.Window) error {
+		got, err := c.CountNaive(w.Tokens)
+		if n == 0 {
+			want = got
+		} else {
+			want.add(got)
 		}
-		pieces, err := ingest.Parse(filepath.Base(f), data, ingest.DefaultParseOptions())
-		if err != nil {
-			t.Fatal(err)
-		}
-		for i := range pieces {
-			if err := enc.Windows(&pieces[i], func(w tokenize.Window) error {
-				got, err := c.CountNaive(w.Tokens)
-				if n == 0 {
-					want = got
-				} else {
-					want.add(got)
-				}
-				n++
-				return err
-			}); err != nil {
-				t.Fatal(err)
-			}
-		}
-	}
+		n++
+		return err
+	})
 	var sources []ingest.Source
 	for _, f := range files[:3] {
 		sources = append(sources, ingest.Source{Path: f, Dataset: "openmsx"})
