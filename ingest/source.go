@@ -365,7 +365,7 @@ func relOrDot(rel string) string {
 const maxListSize = 256 << 20
 
 // enumerateList reads a file listing one path per line (blank lines and lines starting
-// with # ignored; relative paths are relative to the list file's folder) and emits each
+// with # ignored; CR LF line ends and a leading byte-order mark allowed; relative paths are relative to the list file's folder) and emits each
 // listed file, sorted by the path as written. Every listed path is an input, whatever
 // its extension, once however often it is listed; a name ending in .gz is decompressed.
 func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) error {
@@ -383,8 +383,14 @@ func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) er
 	lr := &io.LimitedReader{R: f, N: maxListSize + 1}
 	sc := bufio.NewScanner(lr)
 	sc.Buffer(nil, 1<<20)
-	for sc.Scan() {
-		line := strings.TrimSpace(sc.Text())
+	for first := true; sc.Scan(); first = false {
+		line := sc.Text()
+		if first {
+			// A list saved by a Windows editor may begin with a UTF-8 byte-order mark
+			// (and end its lines with CR LF, which TrimSpace takes off).
+			line = strings.TrimPrefix(line, "\ufeff")
+		}
+		line = strings.TrimSpace(line)
 		if line == "" || strings.HasPrefix(line, "#") {
 			continue
 		}

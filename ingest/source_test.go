@@ -169,6 +169,14 @@ func TestListSource(t *testing.T) {
 	if g := outcomes(got); !reflect.DeepEqual(g, want) {
 		t.Errorf("got %s\nwant %s", fmtOutcomes(g), fmtOutcomes(want))
 	}
+
+	// The same list as a Windows editor saves it: a byte-order mark, CR LF line ends.
+	crlf := "\ufeff" + strings.ReplaceAll(list, "\n", "\r\n")
+	fxWrite(t, dir, map[string][]byte{"files.lst": []byte(crlf)})
+	got = scanAll(t, []Source{{Path: filepath.Join(dir, "files.lst")}}, DefaultOptions())
+	if g := outcomes(got); !reflect.DeepEqual(g, want) {
+		t.Errorf("BOM and CR LF: got %s\nwant %s", fmtOutcomes(g), fmtOutcomes(want))
+	}
 }
 
 func TestSingleFileSource(t *testing.T) {
