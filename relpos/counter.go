@@ -838,7 +838,8 @@ func countPitch(p []int16, mode Mode, hist *[pitchSpan]int64, maxAbs *int64) int
 			qi := int(q)
 			h[qi]++
 			lo, hi = min(lo, qi), max(hi, qi)
-			row, src := hist[127-qi+lo:127-qi+hi+1], h[lo:hi+1]
+			src := h[lo : hi+1]
+			row := hist[127-qi+lo:][:len(src)] // as long as src: no bounds check in the loop
 			for b, n := range src {
 				row[b] += n
 			}
@@ -852,9 +853,10 @@ func countPitch(p []int16, mode Mode, hist *[pitchSpan]int64, maxAbs *int64) int
 			if h[a] == 0 {
 				continue
 			}
-			row := hist[127-a:]
-			for b := lo; b <= hi; b++ {
-				row[b] += h[a] * h[b]
+			ha, src := h[a], h[lo:hi+1]
+			row := hist[127-a+lo:][:len(src)]
+			for b, n := range src {
+				row[b] += ha * n
 			}
 		}
 	}
