@@ -280,9 +280,14 @@ func (e *shardEncoder) flush() error {
 	return nil
 }
 
-// close writes the footer and releases the spill files.
+// close writes the footer and releases the spill files. It drops the Parquet
+// writer too: its column buffers are garbage from here on, while the caller still
+// hashes, syncs and renames the file (and the next shard of the split is already
+// filling).
 func (e *shardEncoder) close() error {
-	if err := e.pw.Close(); err != nil {
+	err := e.pw.Close()
+	e.pw = nil
+	if err != nil {
 		e.release()
 		return fmt.Errorf("close parquet writer: %w", err)
 	}
