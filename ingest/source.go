@@ -365,9 +365,10 @@ func relOrDot(rel string) string {
 const maxListSize = 256 << 20
 
 // enumerateList reads a file listing one path per line (blank lines and lines starting
-// with # ignored; CR LF line ends and a leading byte-order mark allowed; relative paths are relative to the list file's folder) and emits each
-// listed file, sorted by the path as written. Every listed path is an input, whatever
-// its extension, once however often it is listed; a name ending in .gz is decompressed.
+// with # ignored; CR LF line ends and a leading byte-order mark allowed; relative
+// paths are relative to the list file's folder) and emits each listed file, sorted by
+// the path as written. Every listed path is an input, whatever its extension, once
+// however often it is listed; a name ending in .gz is decompressed.
 func enumerateList(listPath string, base entry, opts *Options, emit emitFunc) error {
 	f, _, err := openRegular(listPath, maxListSize)
 	if err != nil {
