@@ -75,18 +75,7 @@ func TestCountCorpus(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var want Counts
-	windows := 0
-	eachWindow(t, enc, []string{filepath.Join(dir, "a.mid"), filepath.Join(dir, "b.mid")}, func(w tokenize.Window) error {
-		got, err := c.CountNaive(w.Tokens)
-		if windows == 0 {
-			want = got
-		} else {
-			want.add(got)
-		}
-		windows++
-		return err
-	})
+	want, windows := naiveTotal(t, c, enc, []string{filepath.Join(dir, "a.mid"), filepath.Join(dir, "b.mid")})
 	if windows < 4 {
 		t.Fatalf("only %d windows", windows)
 	}
@@ -144,6 +133,25 @@ func eachWindow(t testing.TB, enc *tokenize.Encoder, paths []string, fn func(tok
 	}
 }
 
+// naiveTotal is the naive count (the reference) summed over every window of the
+// files at paths, and the number of windows.
+func naiveTotal(t testing.TB, c *Counter, enc *tokenize.Encoder, paths []string) (Counts, int) {
+	t.Helper()
+	var total Counts
+	windows := 0
+	eachWindow(t, enc, paths, func(w tokenize.Window) error {
+		got, err := c.CountNaive(w.Tokens)
+		if windows == 0 {
+			total = got
+		} else {
+			total.add(got)
+		}
+		windows++
+		return err
+	})
+	return total, windows
+}
+
 // openMSXDir holds the MIDI files of Debian's openttd-openmsx package.
 const openMSXDir = "/usr/share/games/openttd/baseset/openmsx"
 
@@ -170,18 +178,7 @@ func TestCountCorpusOpenMSX(t *testing.T) {
 		t.Fatal(err)
 	}
 	// Naive counts are O(L²): keep to the first three files.
-	var want Counts
-	n := 0
-	eachWindow(t, enc, files[:3], func(w tokenize.Window) error {
-		got, err := c.CountNaive(w.Tokens)
-		if n == 0 {
-			want = got
-		} else {
-			want.add(got)
-		}
-		n++
-		return err
-	})
+	want, n := naiveTotal(t, c, enc, files[:3])
 	var sources []ingest.Source
 	for _, f := range files[:3] {
 		sources = append(sources, ingest.Source{Path: f, Dataset: "openmsx"})
