@@ -4,6 +4,8 @@ package ingest
 
 import (
 	"syscall"
+
+	"golang.org/x/sys/unix"
 	"time"
 )
 
@@ -16,4 +18,13 @@ func processCPU() time.Duration {
 		return 0
 	}
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+}
+
+// threadCPU returns the CPU time of the calling OS thread (lock it first).
+func threadCPU() time.Duration {
+	var ts unix.Timespec
+	if err := unix.ClockGettime(unix.CLOCK_THREAD_CPUTIME_ID, &ts); err != nil {
+		return 0
+	}
+	return time.Duration(ts.Nano())
 }
