@@ -2,10 +2,12 @@ package export
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 	"sync"
 
 	"golang.org/x/sync/errgroup"
@@ -20,23 +22,24 @@ import (
 // Memory is bounded by a few batches of rows plus the compressed pages of one row
 // group per open shard, whatever the shard size and the corpus size.
 type datasetWriter struct {
-	dir     string
-	part    Part
-	rows    int64 // shard row target, or 0
-	bytes   int64 // shard payload target when rows is 0
-	group   int64 // row-group payload target
-	opt     ShardOptions
-	g       *errgroup.Group
-	ctx     context.Context
-	cancel  context.CancelFunc
-	slots   chan struct{} // bounds the shards open or finishing at once
-	streams map[string]*splitStream
-	onShard func(Shard)   // called after each shard is written, serialized
-	onReuse func()        // called after each shard kept from an interrupted run, serialized
-	journal *journal      // nil: every shard is written
-	cpu     chan struct{} // nil, or tokens shared with the stages upstream (see outputSpec)
-	mu      sync.Mutex
-	shards  []numbered
+	dir      string
+	part     Part
+	rows     int64 // shard row target, or 0
+	bytes    int64 // shard payload target when rows is 0
+	group    int64 // row-group payload target
+	opt      ShardOptions
+	g        *errgroup.Group
+	ctx      context.Context
+	cancel   context.CancelFunc
+	slots    chan struct{} // bounds the shards open or finishing at once
+	streams  map[string]*splitStream
+	onShard  func(Shard)        // called after each shard is written, serialized
+	onReuse  func()             // called after each shard kept from an interrupted run, serialized
+	onEncode func(replayed int) // called when a shard's encoder starts, with the batches read back (tests)
+	journal  *journal           // nil: every shard is written
+	cpu      chan struct{}      // nil, or tokens shared with the stages upstream (see outputSpec)
+	mu       sync.Mutex
+	shards   []numbered
 }
 
 type numbered struct {
@@ -177,34 +180,63 @@ func (w *datasetWriter) closeShard(s *splitStream) {
 }
 
 // encode writes the batches of rows received as the shard rel, and commits it
-// when batches is closed. When the interrupted run of the same config completed
-// the same shard (same bytes, file intact), the file on disk is kept instead and
-// reused is true: shard bytes follow from their rows and options alone, so equal
-// bytes mean equal contents.
+// when batches is closed.
+//
+// A shard that the interrupted run of the same config completed (the file intact,
+// its batches in the journal) is not encoded while this run's batches have the
+// digests of that run's, in order: if all of them do, the file on disk is kept and
+// reused is true, since shard bytes follow from their batches alone. Where they
+// part, the batches before are read back from the file and encoded again, and the
+// shard is written as any other. A shard recorded without batches is encoded and
+// kept when the bytes come out the same.
 func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt ShardOptions) (sh Shard, reused bool, err error) {
 	p := filepath.Join(w.dir, filepath.FromSlash(rel))
 	sh = Shard{Path: rel, Split: split}
 	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
 		return sh, false, fmt.Errorf("create %s folder: %w", split, err)
 	}
-	sf, err := createShardFile(p)
-	if err != nil {
-		return sh, false, err
-	}
-	committed := false
-	defer func() {
-		if !committed {
-			sf.discard()
-		}
-	}()
 	if opt.SpillDir == "" {
 		opt.SpillDir = filepath.Dir(p)
 	}
-	enc, err := newShardEncoder(sf, opt)
-	if err != nil {
-		return sh, false, err
+	var (
+		sf        *shardFile
+		enc       *shardEncoder
+		committed bool
+		dg        = newBatchDigester()
+		done      []journalBatch // this run's batches so far
+	)
+	defer func() {
+		if enc != nil {
+			enc.release()
+		}
+		if sf != nil && !committed {
+			sf.discard()
+		}
+	}()
+	// start opens the file and the encoder, and encodes again the batches kept
+	// so far, read back from the interrupted run's file.
+	start := func() error {
+		var err error
+		if sf, err = createShardFile(p); err != nil {
+			return err
+		}
+		if enc, err = newShardEncoder(sf, opt); err != nil {
+			return err
+		}
+		if err := replay(p, enc, done, dg); err != nil {
+			return err
+		}
+		if w.onEncode != nil {
+			w.onEncode(len(done))
+		}
+		return nil
 	}
-	defer enc.release()
+	prev, checking := w.journal.candidate(rel)
+	if !checking {
+		if err := start(); err != nil {
+			return sh, false, err
+		}
+	}
 	for {
 		var b rowBatch
 		var ok bool
@@ -222,25 +254,49 @@ func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt S
 		if err := acquire(w.ctx, w.cpu); err != nil {
 			return sh, false, err
 		}
-		err := enc.write(b.rows)
-		if err != nil {
-			err = fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(b.rows))-1, err)
-		} else if b.end {
-			if err = enc.flush(); err != nil {
-				err = fmt.Errorf("write shard %s: %w", rel, err)
+		jb := journalBatch{Rows: len(b.rows), End: b.end, Digest: dg.digest(b.rows, b.end)}
+		var err error
+		if checking {
+			if k := len(done); k < len(prev.Batches) && prev.Batches[k] == jb {
+				release(w.cpu)
+				done = append(done, jb)
+				sh.Rows += int64(len(b.rows))
+				clear(b.rows)
+				continue
+			}
+			checking = false
+			err = start()
+		}
+		if err == nil {
+			if err = enc.write(b.rows); err != nil {
+				err = fmt.Errorf("write shard %s: rows %d-%d: %w", rel, sh.Rows, sh.Rows+int64(len(b.rows))-1, err)
+			} else if b.end {
+				if err = enc.flush(); err != nil {
+					err = fmt.Errorf("write shard %s: %w", rel, err)
+				}
 			}
 		}
 		release(w.cpu)
 		if err != nil {
 			return sh, false, err
 		}
+		done = append(done, jb)
 		sh.Rows += int64(len(b.rows))
 		clear(b.rows) // the writer holds copies; let the rows' slices go
 	}
 	if err := acquire(w.ctx, w.cpu); err != nil {
 		return sh, false, err
 	}
-	err = enc.close()
+	if checking && len(done) == len(prev.Batches) {
+		release(w.cpu)
+		return prev.Shard, true, nil
+	}
+	if checking {
+		err = start() // fewer batches than the interrupted run's shard
+	}
+	if err == nil {
+		err = enc.close()
+	}
 	release(w.cpu)
 	if err != nil {
 		return sh, false, fmt.Errorf("write shard %s: %w", rel, err)
@@ -259,11 +315,68 @@ func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt S
 	}
 	committed = true
 	if w.journal != nil {
-		if err := w.journal.record(sh.SHA256, sh); err != nil {
+		if err := w.journal.record(sh.SHA256, sh, done); err != nil {
 			return sh, false, err
 		}
 	}
 	return sh, false, nil
+}
+
+// errReplayed stops reading a shard back once the batches to replay are encoded.
+var errReplayed = errors.New("replayed")
+
+// replay encodes into enc the first len(batches) batches of the shard file at
+// path, written by an interrupted run: the batches of this run that matched that
+// run's before they parted. Their rows are read back from the file, and each batch
+// read must have the digest it was recorded with.
+func replay(path string, enc *shardEncoder, batches []journalBatch, dg *batchDigester) error {
+	if len(batches) == 0 {
+		return nil
+	}
+	k := 0
+	cur := make([]Row, 0, writeBatch)
+	err := readRows(path, func(rows []Row) error {
+		for i := range rows {
+			cur = append(cur, cloneRow(&rows[i])) // readRows reuses its rows
+			b := batches[k]
+			if len(cur) < b.Rows {
+				continue
+			}
+			if dg.digest(cur, b.End) != b.Digest {
+				return fmt.Errorf("batch %d read back is not the batch recorded", k)
+			}
+			if err := enc.write(cur); err != nil {
+				return err
+			}
+			if b.End {
+				if err := enc.flush(); err != nil {
+					return err
+				}
+			}
+			cur = cur[:0]
+			if k++; k == len(batches) {
+				return errReplayed
+			}
+		}
+		return nil
+	})
+	switch {
+	case errors.Is(err, errReplayed):
+		return nil
+	case err == nil:
+		err = fmt.Errorf("the file ends after %d of %d batches", k, len(batches))
+	}
+	return fmt.Errorf("resume: encode again the rows kept in %s: %w", filepath.Base(path), err)
+}
+
+// cloneRow returns a copy of r that shares no memory with it.
+func cloneRow(r *Row) Row {
+	c := *r
+	c.Tokens, c.Time = slices.Clone(r.Tokens), slices.Clone(r.Time)
+	c.Pitch, c.Inst = slices.Clone(r.Pitch), slices.Clone(r.Inst)
+	c.Piece, c.Dataset, c.Source = strings.Clone(r.Piece), strings.Clone(r.Dataset), strings.Clone(r.Source)
+	c.ContentHash, c.Split = strings.Clone(r.ContentHash), strings.Clone(r.Split)
+	return c
 }
 
 // finish writes the open shards, waits for every writer, and returns the shards

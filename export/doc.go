@@ -23,8 +23,9 @@
 // and nothing in the manifest is a timestamp. Files appear only complete (written
 // under a temporary name, synced and renamed), so a killed run is finished by
 // running it again; the rerun keeps the shards the killed run completed (listed
-// in .relshard-journal.jsonl while a run is unfinished). Verify reads a dataset
-// back and lists its problems.
+// in .relshard-journal.jsonl while a run is unfinished, with digests of the row
+// batches they were encoded from, so that a kept shard is not encoded again).
+// Verify reads a dataset back and lists its problems.
 //
 // Memory does not depend on the shard size or the corpus size: each open shard
 // is encoded while its rows arrive, a batch of rows and the compressed pages of

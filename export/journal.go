@@ -16,11 +16,25 @@ import (
 // and syncing them again. It exists only while a run is unfinished.
 const JournalName = ".relshard-journal.jsonl"
 
-// journalEntry is one line of the journal: a shard and the digest of its bytes
-// (the hex SHA-256 of the file, which follows from its rows and writer options).
+// journalEntry is one line of the journal: a shard, the digest of its bytes (the
+// hex SHA-256 of the file, which follows from its rows and writer options) and the
+// batches its rows were encoded in, in order.
 type journalEntry struct {
+	Digest  string         `json:"digest"`
+	Shard   Shard          `json:"shard"`
+	Batches []journalBatch `json:"batches,omitempty"`
+}
+
+// journalBatch is one batch of rows handed to a shard's encoder: its row count,
+// whether it ended a row group, and its digest (batchDigester). A rerun whose
+// batches for a shard have the same digests, in the same order, would encode the
+// same file, so it keeps the file on disk without encoding; where they part, it
+// reads the batches before back from the file to encode them again (see
+// datasetWriter.encode).
+type journalBatch struct {
+	Rows   int    `json:"rows"`
+	End    bool   `json:"end,omitempty"`
 	Digest string `json:"digest"`
-	Shard  Shard  `json:"shard"`
 }
 
 // journal records completed shards and answers whether a shard of an earlier,
@@ -92,10 +106,40 @@ func (j *journal) reuse(rel, sum string, size int64) (Shard, bool) {
 	return e.Shard, true
 }
 
+// candidate returns the entry of the shard at rel when the interrupted run
+// completed it with its batches recorded and the file on disk is still intact, so
+// that the shard's batches of this run can be compared with the entry's instead of
+// being encoded.
+func (j *journal) candidate(rel string) (journalEntry, bool) {
+	if j == nil {
+		return journalEntry{}, false
+	}
+	j.mu.Lock()
+	e, ok := j.prev[rel]
+	j.mu.Unlock()
+	if !ok || len(e.Batches) == 0 {
+		return journalEntry{}, false
+	}
+	rows := int64(0)
+	for _, b := range e.Batches {
+		if b.Rows <= 0 || b.Digest == "" {
+			return journalEntry{}, false
+		}
+		rows += int64(b.Rows)
+	}
+	if rows != e.Shard.Rows {
+		return journalEntry{}, false
+	}
+	if _, ok := j.reuse(rel, e.Shard.SHA256, e.Shard.Bytes); !ok {
+		return journalEntry{}, false
+	}
+	return e, true
+}
+
 // record appends a completed shard, durably: the shard file was synced and
 // renamed before, so an entry never names a file that is not complete.
-func (j *journal) record(digest string, sh Shard) error {
-	line, err := json.Marshal(journalEntry{Digest: digest, Shard: sh})
+func (j *journal) record(digest string, sh Shard, batches []journalBatch) error {
+	line, err := json.Marshal(journalEntry{Digest: digest, Shard: sh, Batches: batches})
 	if err != nil {
 		return err
 	}

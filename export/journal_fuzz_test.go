@@ -10,7 +10,7 @@ import (
 // FuzzJournal resumes from arbitrary journal bytes, as a run killed at any point
 // (or a damaged disk) may leave them: openJournal must not fail or panic on them,
 // must keep exactly the leading complete, sound lines (the file it leaves is a
-// prefix of the old one, ending at a line end), and reuse must refuse every entry
+// prefix of the old one, ending at a line end), and reuse and candidate must refuse every entry
 // whose shard is not on disk.
 func FuzzJournal(f *testing.F) {
 	good := `{"digest":"ab","shard":{"path":"train/part-000.parquet","split":"train","rows":3,"tokens":96,"bytes":1200,"sha256":"ab"}}` + "\n"
@@ -20,6 +20,8 @@ func FuzzJournal(f *testing.F) {
 		good + good[:40],
 		good + "{\"digest\":\"\"}\n" + good,
 		good + "not json\n",
+		`{"digest":"ab","shard":{"path":"train/part-000.parquet","split":"train","rows":3,"bytes":1200,"sha256":"ab"},"batches":[{"rows":3,"end":true,"digest":"00"}]}` + "\n",
+		`{"digest":"ab","shard":{"path":"t.parquet","rows":2},"batches":[{"rows":-1,"digest":""},{"rows":3}]}` + "\n",
 		`{"digest":"cd","shard":{"path":"../../outside","bytes":-1,"sha256":"cd"}}` + "\n",
 		"\n\n",
 	} {
@@ -46,6 +48,9 @@ func FuzzJournal(f *testing.F) {
 		for rel, e := range j.prev {
 			if sh, ok := j.reuse(rel, e.Shard.SHA256, e.Shard.Bytes); ok {
 				t.Fatalf("reused %q (%+v) with no shard on disk", rel, sh)
+			}
+			if c, ok := j.candidate(rel); ok {
+				t.Fatalf("kept %q (%+v) for comparing batches with no shard on disk", rel, c)
 			}
 		}
 	})

@@ -29,6 +29,7 @@ type outputSpec struct {
 	buckets     json.RawMessage
 	onShard     func(Shard)
 	onReuse     func()
+	onEncode    func(replayed int) // see datasetWriter.onEncode
 	// cpu, when set, is shared with the stages upstream: a shard encoder holds
 	// a token while it encodes a batch, so that the run as a whole keeps about
 	// workers cores busy, not workers plus one per open shard.
@@ -76,7 +77,7 @@ func writeOutput(ctx context.Context, sp outputSpec, feed func(emit func(fileRes
 		},
 	}
 	dw := newDatasetWriter(ctx, sp.dir, sp.part, sp.cfg.Shards, opt, sp.workers, sp.onShard)
-	dw.journal, dw.onReuse, dw.cpu = jr, sp.onReuse, sp.cpu
+	dw.journal, dw.onReuse, dw.onEncode, dw.cpu = jr, sp.onReuse, sp.onEncode, sp.cpu
 	spool, err := newEntrySpool(sp.dir)
 	if err != nil {
 		dw.abort()

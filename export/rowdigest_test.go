@@ -1,0 +1,58 @@
+package export
+
+import (
+	"slices"
+	"testing"
+)
+
+// TestBatchDigestCoversEveryField: a batch digest changes with every value of
+// every row and with the end-of-group flag, and only with them.
+func TestBatchDigestCoversEveryField(t *testing.T) {
+	base := func() []Row {
+		return []Row{
+			{Tokens: []int32{1, 2, 3}, Time: []int32{0, 10, 20}, Pitch: []int16{-1, 60, 64}, Inst: []int16{-1, 0, 0},
+				Piece: "d:a.mid#0", Dataset: "d", Source: "a.mid", ContentHash: "ab", Split: SplitTrain, Window: 0, Transpose: 0, Stretch: 1},
+			{Tokens: []int32{4}, Time: []int32{30}, Pitch: []int16{-1}, Inst: []int16{-1},
+				Piece: "d:a.mid#0", Dataset: "d", Source: "a.mid", ContentHash: "ab", Split: SplitTrain, Window: 1, Transpose: 0, Stretch: 1},
+		}
+	}
+	d := newBatchDigester()
+	want := d.digest(base(), false)
+	if got := d.digest(base(), false); got != want {
+		t.Fatalf("digest of equal rows: %s, then %s", want, got)
+	}
+	if len(want) != 32 {
+		t.Errorf("digest %q: want 32 hex digits (128 bits)", want)
+	}
+	for _, tc := range []struct {
+		name   string
+		change func([]Row) []Row
+		end    bool
+	}{
+		{"end of group", func(r []Row) []Row { return r }, true},
+		{"token", func(r []Row) []Row { r[0].Tokens[2] = 5; return r }, false},
+		{"time", func(r []Row) []Row { r[1].Time[0] = 31; return r }, false},
+		{"pitch", func(r []Row) []Row { r[0].Pitch[1] = 61; return r }, false},
+		{"instrument", func(r []Row) []Row { r[0].Inst[0] = 3; return r }, false},
+		{"token moved to the next row", func(r []Row) []Row {
+			r[1].Tokens = append([]int32{r[0].Tokens[2]}, r[1].Tokens...)
+			r[0].Tokens = r[0].Tokens[:2]
+			return r
+		}, false},
+		{"piece", func(r []Row) []Row { r[1].Piece = "d:a.mid#1"; return r }, false},
+		{"dataset", func(r []Row) []Row { r[0].Dataset = "e"; return r }, false},
+		{"source", func(r []Row) []Row { r[0].Source = "b.mid"; return r }, false},
+		{"content hash", func(r []Row) []Row { r[1].ContentHash = "ac"; return r }, false},
+		{"split", func(r []Row) []Row { r[0].Split = SplitTest; return r }, false},
+		{"strings shifted", func(r []Row) []Row { r[0].Dataset, r[0].Source = "da", ".mid"; return r }, false},
+		{"window", func(r []Row) []Row { r[1].Window = 2; return r }, false},
+		{"transpose", func(r []Row) []Row { r[0].Transpose = -2; return r }, false},
+		{"stretch", func(r []Row) []Row { r[0].Stretch = 1.05; return r }, false},
+		{"row left out", func(r []Row) []Row { return r[:1] }, false},
+		{"rows swapped", func(r []Row) []Row { slices.Reverse(r); return r }, false},
+	} {
+		if got := d.digest(tc.change(base()), tc.end); got == want {
+			t.Errorf("%s: digest unchanged", tc.name)
+		}
+	}
+}
