@@ -183,7 +183,8 @@ func (w *datasetWriter) closeShard(s *splitStream) {
 // when batches is closed.
 //
 // A shard that the interrupted run of the same config completed (the file intact,
-// its batches in the journal) is not encoded while this run's batches have the
+// its batches in the journal, written by a build and options of the same identity)
+// is not encoded while this run's batches have the
 // digests of that run's, in order: if all of them do, the file on disk is kept and
 // reused is true, since shard bytes follow from their batches alone. Where they
 // part, the batches before are read back from the file and encoded again, and the
@@ -231,7 +232,8 @@ func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt S
 		}
 		return nil
 	}
-	prev, checking := w.journal.candidate(rel)
+	writer := opt.identity()
+	prev, checking := w.journal.candidate(rel, writer)
 	if !checking {
 		if err := start(); err != nil {
 			return sh, false, err
@@ -315,7 +317,7 @@ func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt S
 	}
 	committed = true
 	if w.journal != nil {
-		if err := w.journal.record(sh.SHA256, sh, done); err != nil {
+		if err := w.journal.record(sh.SHA256, sh, writer, done); err != nil {
 			return sh, false, err
 		}
 	}

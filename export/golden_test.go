@@ -3,6 +3,8 @@ package export
 import (
 	"bytes"
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"flag"
 	"os"
 	"path/filepath"
@@ -43,6 +45,15 @@ func TestGoldenShard(t *testing.T) {
 	}
 	if !bytes.Equal(got, want) {
 		t.Errorf("shard bytes differ from %s (%d vs %d bytes)", golden, len(got), len(want))
+	}
+	// New shard bytes need a new writerFormat, or a rerun would keep the shards of
+	// an interrupted run by the old build as its own: add the golden shard's
+	// SHA-256 here under the new number.
+	formats := map[int]string{
+		1: "13133acd9e72cfcf0754d8adc89496a2583f08381285fa838aae4e642c00d916",
+	}
+	if sum := sha256.Sum256(got); formats[writerFormat] != hex.EncodeToString(sum[:]) {
+		t.Errorf("writerFormat %d is not the format of these shard bytes (sha256 %x): add a new writerFormat", writerFormat, sum)
 	}
 }
 

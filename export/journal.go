@@ -22,6 +22,7 @@ const JournalName = ".relshard-journal.jsonl"
 type journalEntry struct {
 	Digest  string         `json:"digest"`
 	Shard   Shard          `json:"shard"`
+	Writer  string         `json:"writer,omitempty"` // ShardOptions.identity of the build and options that wrote it
 	Batches []journalBatch `json:"batches,omitempty"`
 }
 
@@ -107,17 +108,18 @@ func (j *journal) reuse(rel, sum string, size int64) (Shard, bool) {
 }
 
 // candidate returns the entry of the shard at rel when the interrupted run
-// completed it with its batches recorded and the file on disk is still intact, so
-// that the shard's batches of this run can be compared with the entry's instead of
-// being encoded.
-func (j *journal) candidate(rel string) (journalEntry, bool) {
+// completed it with its batches recorded, with a writer of the same identity
+// (ShardOptions.identity), and the file on disk is still intact, so that the
+// shard's batches of this run can be compared with the entry's instead of being
+// encoded.
+func (j *journal) candidate(rel, writer string) (journalEntry, bool) {
 	if j == nil {
 		return journalEntry{}, false
 	}
 	j.mu.Lock()
 	e, ok := j.prev[rel]
 	j.mu.Unlock()
-	if !ok || len(e.Batches) == 0 {
+	if !ok || len(e.Batches) == 0 || e.Writer != writer {
 		return journalEntry{}, false
 	}
 	rows := int64(0)
@@ -138,8 +140,8 @@ func (j *journal) candidate(rel string) (journalEntry, bool) {
 
 // record appends a completed shard, durably: the shard file was synced and
 // renamed before, so an entry never names a file that is not complete.
-func (j *journal) record(digest string, sh Shard, batches []journalBatch) error {
-	line, err := json.Marshal(journalEntry{Digest: digest, Shard: sh, Batches: batches})
+func (j *journal) record(digest string, sh Shard, writer string, batches []journalBatch) error {
+	line, err := json.Marshal(journalEntry{Digest: digest, Shard: sh, Writer: writer, Batches: batches})
 	if err != nil {
 		return err
 	}

@@ -49,7 +49,7 @@ func FuzzJournal(f *testing.F) {
 			if sh, ok := j.reuse(rel, e.Shard.SHA256, e.Shard.Bytes); ok {
 				t.Fatalf("reused %q (%+v) with no shard on disk", rel, sh)
 			}
-			if c, ok := j.candidate(rel); ok {
+			if c, ok := j.candidate(rel, e.Writer); ok {
 				t.Fatalf("kept %q (%+v) for comparing batches with no shard on disk", rel, c)
 			}
 		}

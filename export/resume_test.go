@@ -62,8 +62,9 @@ func interrupted(t *testing.T, dir string, files []fileResult) {
 // TestResumeComparesBatches: a rerun keeps the shards of the interrupted run
 // whose batches it would encode alike, without encoding them; where its batches
 // part from the interrupted run's (the input changed in between), it encodes the
-// shard again, reading the batches before back from the file. Either way the
-// result is byte for byte that of an uninterrupted run on the rerun's input.
+// shard again, reading the batches before back from the file. Shards written by
+// another build or with other writer options are encoded again. Either way the
+// result is byte for byte that of an uninterrupted run of the rerun.
 func TestResumeComparesBatches(t *testing.T) {
 	files := synthFiles(120)
 	changed := slices.Clone(files)
@@ -96,10 +97,13 @@ func TestResumeComparesBatches(t *testing.T) {
 	for _, tc := range []struct {
 		name  string
 		rerun []fileResult
-	}{{"same input", files}, {"input changed", changed}} {
+		tool  string // tool version of the rerun
+	}{{"same input", files, "test"}, {"input changed", changed, "test"}, {"other build", files, "test 2"}} {
 		t.Run(tc.name, func(t *testing.T) {
 			clean := t.TempDir()
-			if _, err := writeOutput(context.Background(), resumeSpec(clean), feedOf(tc.rerun), noCoverage); err != nil {
+			csp := resumeSpec(clean)
+			csp.toolVersion = tc.tool
+			if _, err := writeOutput(context.Background(), csp, feedOf(tc.rerun), noCoverage); err != nil {
 				t.Fatal(err)
 			}
 			dir := t.TempDir()
@@ -108,6 +112,7 @@ func TestResumeComparesBatches(t *testing.T) {
 			kept := map[string]bool{} // written under the writer's lock, read after the run
 			last := false
 			sp := resumeSpec(dir)
+			sp.toolVersion = tc.tool
 			sp.onReuse = func() { reused.Add(1); last = true }
 			sp.onEncode = func(n int) { encoders.Add(1); replayed.Add(int64(n)) }
 			sp.onShard = func(sh Shard) {
@@ -132,6 +137,10 @@ func TestResumeComparesBatches(t *testing.T) {
 			case "input changed":
 				if kept[first] || replayed.Load() != 1 {
 					t.Errorf("%s kept %v, %d batches read back; want encoded again from its first batch", first, kept[first], replayed.Load())
+				}
+			case "other build":
+				if reused.Load() != 0 || replayed.Load() != 0 {
+					t.Errorf("%d shards kept, %d batches read back from shards written by another build; want none", reused.Load(), replayed.Load())
 				}
 			}
 			t.Logf("%d shards: %d kept without encoding, %d encoded, %d batches read back", shards.Load(), reused.Load(), encoders.Load(), replayed.Load())

@@ -56,3 +56,35 @@ func TestBatchDigestCoversEveryField(t *testing.T) {
 		}
 	}
 }
+
+// TestWriterIdentity: the identity that journal entries carry changes with every
+// writer option that changes shard bytes, and not with where pages spill.
+func TestWriterIdentity(t *testing.T) {
+	base := func() ShardOptions {
+		return ShardOptions{RowGroupBytes: 1 << 20, CreatedBy: "relshard v1", Metadata: map[string]string{MetaSplit: SplitTrain}}
+	}
+	want := base().identity()
+	spilled := base()
+	spilled.SpillDir = t.TempDir()
+	zstd := base()
+	zstd.Compression = CompressionZstd
+	for _, same := range []ShardOptions{base(), spilled, zstd} {
+		if got := same.identity(); got != want {
+			t.Errorf("%+v: identity %s, want %s", same, got, want)
+		}
+	}
+	for name, change := range map[string]func(*ShardOptions){
+		"compression":   func(o *ShardOptions) { o.Compression = CompressionSnappy },
+		"row group":     func(o *ShardOptions) { o.RowGroupBytes = 2 << 20 },
+		"created by":    func(o *ShardOptions) { o.CreatedBy = "relshard v2" },
+		"metadata":      func(o *ShardOptions) { o.Metadata[MetaSplit] = SplitTest },
+		"metadata key":  func(o *ShardOptions) { o.Metadata[MetaToolVersion] = "v1" },
+		"default group": func(o *ShardOptions) { o.RowGroupBytes = 0 },
+	} {
+		o := base()
+		change(&o)
+		if o.identity() == want {
+			t.Errorf("%s: identity unchanged", name)
+		}
+	}
+}

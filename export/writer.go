@@ -10,6 +10,7 @@ import (
 	"maps"
 	"os"
 	"path/filepath"
+	"runtime/debug"
 	"slices"
 
 	"github.com/parquet-go/parquet-go"
@@ -210,6 +211,42 @@ func encodeShard(w io.Writer, rows []Row, opt ShardOptions, release bool) error 
 // the same pages, byte for byte, as the whole group in one Write, while only a
 // batch needs to be held as Rows.
 const writeBatch = 64
+
+// writerFormat names the way this package encodes rows into shard bytes. Change
+// it whenever the same rows and options would give other bytes (TestGoldenShard
+// ties it to the golden shard), so that a rerun does not keep the shards of an
+// interrupted run by another build for its own (see journalEntry.Writer).
+const writerFormat = 1
+
+// shardLibraries are the modules whose versions shard bytes depend on besides
+// this package.
+var shardLibraries = []string{"github.com/parquet-go/parquet-go", "github.com/klauspost/compress"}
+
+// identity is a digest of everything the bytes of a shard depend on besides its
+// rows: the options, writerFormat and the versions of shardLibraries in this build.
+func (opt ShardOptions) identity() string {
+	h := sha256.New()
+	name := opt.Compression
+	if name == "" {
+		name = CompressionZstd
+	}
+	fmt.Fprintf(h, "relshard shard writer %d\ncompression %q\nrow group %d\ncreated by %q\n",
+		writerFormat, name, opt.rowGroupBytes(), opt.CreatedBy)
+	for _, k := range slices.Sorted(maps.Keys(opt.Metadata)) {
+		fmt.Fprintf(h, "metadata %q %q\n", k, opt.Metadata[k])
+	}
+	if bi, ok := debug.ReadBuildInfo(); ok {
+		for _, d := range bi.Deps {
+			if slices.Contains(shardLibraries, d.Path) {
+				if d.Replace != nil {
+					d = d.Replace
+				}
+				fmt.Fprintf(h, "module %s %s %s\n", d.Path, d.Version, d.Sum)
+			}
+		}
+	}
+	return hex.EncodeToString(h.Sum(nil)[:16])
+}
 
 // rowGroupBytes is the row-group target in effect.
 func (opt ShardOptions) rowGroupBytes() int64 {
