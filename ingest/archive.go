@@ -10,6 +10,7 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
+	"math"
 	"os"
 	"slices"
 	"strings"
@@ -191,6 +192,9 @@ type tarItem struct {
 // tarStream opens the tar stream of a file, through gzip when compressed. An
 // uncompressed stream keeps the file's Seek so that skipped entries are not read.
 func tarStream(path string, gz bool) (*tar.Reader, func() error, error) {
+	if hook := tarOpenHook.Load(); hook != nil {
+		(*hook)()
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, nil, err
@@ -265,6 +269,8 @@ func enumerateTar(ctx context.Context, path string, gz bool, base entry, opts *O
 		return emit(archiveError(base, refused))
 	}
 	slices.SortStableFunc(items, func(a, b tarItem) int { return strings.Compare(a.name, b.name) })
+	var pass tarPass
+	defer pass.close()
 	for start := 0; start < len(items); {
 		// A window of consecutive items (in sorted order) whose bytes fit the buffer cap.
 		end, buffered, need := start, int64(0), 0
@@ -283,7 +289,7 @@ func enumerateTar(ctx context.Context, path string, gz bool, base entry, opts *O
 		data := make(map[int][]byte, need)
 		var passErr error
 		if need > 0 {
-			passErr = readTarWindow(ctx, path, gz, window, need, data)
+			passErr = pass.readWindow(ctx, path, gz, window, need, data)
 			if ctx.Err() != nil {
 				return ctx.Err()
 			}
@@ -314,49 +320,84 @@ func enumerateTar(ctx context.Context, path string, gz bool, base entry, opts *O
 	return nil
 }
 
-// readTarWindow reads the stream again and keeps the bytes of the window's readable
-// items, by stream index, stopping once all need of them are read.
-func readTarWindow(ctx context.Context, path string, gz bool, window []tarItem, need int, data map[int][]byte) error {
+// tarPass is a reading pass over a tar stream. It stays open from one window to
+// the next while the next window's entries all lie ahead of where it stopped, so
+// an archive whose entries are stored in name order, as most are, is read once
+// after the listing instead of once per window from its start (for a compressed
+// stream, every pass decompresses everything before the entries it wants).
+type tarPass struct {
+	tr      *tar.Reader
+	closeFn func() error
+	next    int // stream index of the next header tr returns
+}
+
+func (p *tarPass) close() {
+	if p.closeFn != nil {
+		p.closeFn()
+	}
+	*p = tarPass{}
+}
+
+// readWindow reads on, or again from the start when the window begins behind the
+// pass, and keeps the bytes of the window's readable items, by stream index,
+// stopping once all need of them are read. A failed pass is closed.
+func (p *tarPass) readWindow(ctx context.Context, path string, gz bool, window []tarItem, need int, data map[int][]byte) error {
 	want := make(map[int]*tarItem, need)
+	first := math.MaxInt
 	for i := range window {
 		if window[i].err == nil {
 			want[window[i].index] = &window[i]
+			first = min(first, window[i].index)
 		}
 	}
-	tr, closeFn, err := tarStream(path, gz)
-	if err != nil {
-		return fmt.Errorf("reopen tar: %w", err)
+	if p.tr == nil || first < p.next {
+		p.close()
+		tr, closeFn, err := tarStream(path, gz)
+		if err != nil {
+			return fmt.Errorf("reopen tar: %w", err)
+		}
+		p.tr, p.closeFn = tr, closeFn
 	}
-	defer closeFn()
-	for i := 0; len(data) < need; i++ {
+	err := p.read(ctx, want, need, data)
+	if err != nil {
+		p.close()
+	}
+	return err
+}
+
+func (p *tarPass) read(ctx context.Context, want map[int]*tarItem, need int, data map[int][]byte) error {
+	for ; len(data) < need; p.next++ {
 		if ctx.Err() != nil {
 			return ctx.Err()
 		}
-		hdr, err := tr.Next()
+		hdr, err := p.tr.Next()
 		if err == io.EOF {
 			return fmt.Errorf("stream ended early on re-read: %w", ErrArchiveChanged)
 		}
 		if err != nil && !errors.Is(err, tar.ErrInsecurePath) {
 			return fmt.Errorf("re-read tar: %w: %w", err, ErrBadArchive)
 		}
-		it, ok := want[i]
+		it, ok := want[p.next]
 		if !ok {
 			continue
 		}
 		if hdr.Name != it.name || hdr.Size != it.size {
-			return fmt.Errorf("entry %d is now %q: %w", i, hdr.Name, ErrArchiveChanged)
+			return fmt.Errorf("entry %d is now %q: %w", p.next, hdr.Name, ErrArchiveChanged)
 		}
 		// it.size was checked against Limits.MaxEntrySize in the listing pass, and the tar
 		// reader yields exactly hdr.Size bytes or an error; the buffer is sized from the
 		// header only up to maxPrealloc, as the stream may end before.
-		b, err := readCapped(tr, it.size, min(it.size, maxPrealloc), ErrArchiveChanged)
+		b, err := readCapped(p.tr, it.size, min(it.size, maxPrealloc), ErrArchiveChanged)
 		if err == nil && int64(len(b)) != it.size {
 			err = io.ErrUnexpectedEOF
 		}
 		if err != nil {
 			return fmt.Errorf("read tar entry %s: %w: %w", it.name, err, ErrBadArchive)
 		}
-		data[i] = b
+		data[p.next] = b
 	}
 	return nil
 }
+
+// tarOpenHook, when set (by tests), is called each time a tar stream is opened.
+var tarOpenHook atomic.Pointer[func()]

@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"reflect"
 	"strings"
+	"sync/atomic"
 	"testing"
 )
 
@@ -143,33 +144,54 @@ func TestHostileArchives(t *testing.T) {
 	}
 }
 
-// TestTarSortedMultiPass reads a tar whose entries are in reverse order with a buffer
-// cap smaller than the entries, so that several passes are needed: the entries still come
-// out sorted, each read once.
+// TestTarSortedMultiPass reads tars with a buffer cap smaller than the entries, so
+// that several windows are needed: the entries still come out sorted, each read once.
+// A stream in name order is read once after the listing, the pass going on from
+// window to window; one in reverse order is read again from the start per window.
 func TestTarSortedMultiPass(t *testing.T) {
-	var entries []fxTarEntry
-	var want []outcome
-	for i := 9; i >= 0; i-- {
-		name := string(rune('a'+i)) + ".mid"
-		entries = append(entries, fxTarEntry{Name: name, Data: fxSMF(t, 96, false, []fxNote{{Start: 0, Dur: 96, Key: uint8(40 + 3*i), Vel: 64}, {Start: 96, Dur: 96 * uint32(i+1), Key: 50, Vel: 64}})})
+	entry := func(i int) fxTarEntry {
+		return fxTarEntry{Name: string(rune('a'+i)) + ".mid", Data: fxSMF(t, 96, false, []fxNote{{Start: 0, Dur: 96, Key: uint8(40 + 3*i), Vel: 64}, {Start: 96, Dur: 96 * uint32(i+1), Key: 50, Vel: 64}})}
 	}
+	var want []outcome
 	for i := 0; i <= 9; i++ {
 		want = append(want, outcome{string(rune('a'+i)) + ".mid", StatusOK, "", "", ""})
 	}
-	for _, gz := range []bool{false, true} {
-		dir := t.TempDir()
-		p := filepath.Join(dir, "rev.tar")
-		if gz {
-			p += ".gz"
+	var opens atomic.Int64
+	hook := func() { opens.Add(1) }
+	tarOpenHook.Store(&hook)
+	defer tarOpenHook.Store(nil)
+	for _, tc := range []struct {
+		name  string
+		order []int
+		opens int64 // listing plus reading passes
+	}{
+		{"in order", []int{0, 1, 2, 3, 4, 5, 6, 7, 8, 9}, 2},
+		{"reversed", []int{9, 8, 7, 6, 5, 4, 3, 2, 1, 0}, 5},         // a pass per window
+		{"in order but one", []int{0, 1, 2, 3, 9, 4, 5, 6, 7, 8}, 3}, // "j" is behind the pass
+	} {
+		var entries []fxTarEntry
+		for _, i := range tc.order {
+			entries = append(entries, entry(i))
 		}
-		if err := os.WriteFile(p, fxTar(t, gz, entries...), 0o644); err != nil {
-			t.Fatal(err)
-		}
-		opts := DefaultOptions()
-		opts.Limits.MaxBuffered = 150 // about two entries per pass
-		got := scanAll(t, []Source{{Path: p}}, opts)
-		if g := outcomes(got); !reflect.DeepEqual(g, want) {
-			t.Errorf("gzip %v: got %s\nwant %s", gz, fmtOutcomes(g), fmtOutcomes(want))
+		for _, gz := range []bool{false, true} {
+			dir := t.TempDir()
+			p := filepath.Join(dir, "a.tar")
+			if gz {
+				p += ".gz"
+			}
+			if err := os.WriteFile(p, fxTar(t, gz, entries...), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			opts := DefaultOptions()
+			opts.Limits.MaxBuffered = 150 // three 43-byte entries per window: four windows
+			opens.Store(0)
+			got := scanAll(t, []Source{{Path: p}}, opts)
+			if g := outcomes(got); !reflect.DeepEqual(g, want) {
+				t.Errorf("%s, gzip %v: got %s\nwant %s", tc.name, gz, fmtOutcomes(g), fmtOutcomes(want))
+			}
+			if n := opens.Load(); n != tc.opens {
+				t.Errorf("%s, gzip %v: the stream was opened %d times, want %d", tc.name, gz, n, tc.opens)
+			}
 		}
 	}
 }
