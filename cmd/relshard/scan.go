@@ -35,6 +35,7 @@ type scanOptions struct {
 	maxEntries     int
 	maxEntrySize   string
 	maxArchiveSize string
+	maxTarBuffer   string
 	filter         ingest.Filter
 }
 
@@ -51,6 +52,7 @@ func (o *scanOptions) AddFlags(fs *pflag.FlagSet) {
 	fs.IntVar(&o.maxEntries, "max-entries", ingest.DefaultLimits().MaxEntries, "most entries of one archive; a larger archive is refused")
 	fs.StringVar(&o.maxEntrySize, "max-entry-size", "64MiB", "most decompressed bytes of one archive entry")
 	fs.StringVar(&o.maxArchiveSize, "max-archive-size", "4GiB", "most decompressed bytes of one archive; a larger archive is refused")
+	fs.StringVar(&o.maxTarBuffer, "max-tar-buffer", "128MiB", "most entry bytes of a tar archive held in memory to give them in name order (a smaller buffer reads the stream more times)")
 	fs.IntVar(&o.filter.MinNotes, "min-notes", 1, "skip files with fewer notes")
 	fs.IntVar(&o.filter.MaxNotes, "max-notes", 0, "skip files with more notes (0: no limit)")
 	fs.Float64Var(&o.filter.MinSeconds, "min-seconds", 0, "skip files shorter than this (to the end of the last note)")
@@ -70,7 +72,8 @@ func (o *scanOptions) Validate() error {
 			return usageError("--dataset %q: want NAME=PATH", d)
 		}
 	}
-	for name, v := range map[string]string{"--max-file-size": o.maxFileSize, "--max-entry-size": o.maxEntrySize, "--max-archive-size": o.maxArchiveSize} {
+	for name, v := range map[string]string{"--max-file-size": o.maxFileSize, "--max-entry-size": o.maxEntrySize,
+		"--max-archive-size": o.maxArchiveSize, "--max-tar-buffer": o.maxTarBuffer} {
 		if n, err := parseSize(v); err != nil || n <= 0 {
 			return usageError("%s %q: want a positive size such as 64MiB", name, v)
 		}
@@ -100,6 +103,7 @@ func (o *scanOptions) ingestOptions() ingest.Options {
 	opts.Limits.MaxEntries = o.maxEntries
 	opts.Limits.MaxEntrySize, _ = parseSize(o.maxEntrySize)
 	opts.Limits.MaxTotalSize, _ = parseSize(o.maxArchiveSize)
+	opts.Limits.MaxBuffered, _ = parseSize(o.maxTarBuffer)
 	return opts
 }
 

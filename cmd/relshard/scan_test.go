@@ -9,7 +9,9 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/relshard/relshard/ingest"
 	"github.com/relshard/relshard/ingest/ingesttest"
+	"github.com/spf13/pflag"
 )
 
 // Fixtures: valid SMF bytes from gomidi's writer (an independent SMF 1.0
@@ -151,6 +153,7 @@ func TestScanCommandExitCodes(t *testing.T) {
 		{"no source", []string{"scan"}, exitUsage},
 		{"bad flag", []string{"scan", "--workers", "x", good}, exitUsage},
 		{"bad size", []string{"scan", "--max-file-size", "lots", good}, exitUsage},
+		{"no tar buffer", []string{"scan", "--max-tar-buffer", "0", good}, exitUsage},
 		{"bad dataset", []string{"scan", "--dataset", good}, exitUsage},
 		{"filtered", []string{"scan", "--min-notes", "2", good}, exitSkipped},
 	}
@@ -161,6 +164,34 @@ func TestScanCommandExitCodes(t *testing.T) {
 				t.Errorf("exit %d, want %d; stderr %s", code, tt.want, errOut)
 			}
 		})
+	}
+}
+
+// TestScanLimitFlags: the archive caps reach the scan's limits, and their defaults
+// are the library's.
+func TestScanLimitFlags(t *testing.T) {
+	for _, tc := range []struct {
+		name string
+		args []string
+		want ingest.Limits
+	}{
+		{"defaults", nil, ingest.DefaultLimits()},
+		{"set", []string{"--max-entries", "7", "--max-entry-size", "1MiB", "--max-archive-size", "2GiB", "--max-tar-buffer", "16MiB"},
+			ingest.Limits{MaxEntries: 7, MaxEntrySize: 1 << 20, MaxTotalSize: 2 << 30, MaxBuffered: 16 << 20}},
+	} {
+		var o scanOptions
+		fs := pflag.NewFlagSet("scan", pflag.ContinueOnError)
+		o.AddFlags(fs)
+		if err := fs.Parse(tc.args); err != nil {
+			t.Fatal(err)
+		}
+		o.sources = []string{"x"}
+		if err := o.Validate(); err != nil {
+			t.Fatalf("%s: %v", tc.name, err)
+		}
+		if got := o.ingestOptions().Limits; got != tc.want {
+			t.Errorf("%s: limits %+v, want %+v", tc.name, got, tc.want)
+		}
 	}
 }
 
