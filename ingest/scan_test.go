@@ -437,7 +437,7 @@ func TestScanOpenMSX(t *testing.T) {
 }
 
 // TestScanBoundedInFlight: while yield is blocked, workers process at most the in-flight
-// bound (4 per worker) of files ahead of it, so the reorder buffer stays bounded.
+// bound (Options.Window per worker) of files ahead of it, so the reorder buffer stays bounded.
 func TestScanBoundedInFlight(t *testing.T) {
 	dir := filepath.Join(t.TempDir(), "many")
 	files := map[string][]byte{}
@@ -463,7 +463,7 @@ func TestScanBoundedInFlight(t *testing.T) {
 	if err != nil || n != 100 {
 		t.Fatalf("Scan: %v, %d results", err, n)
 	}
-	if ahead > 4*workers || ahead < 2 {
-		t.Errorf("%d files processed while the first result waited, want 2 to %d", ahead, 4*workers)
+	if ahead > DefaultWindow*workers || ahead < 2 {
+		t.Errorf("%d files processed while the first result waited, want 2 to %d", ahead, DefaultWindow*workers)
 	}
 }
