@@ -51,6 +51,9 @@ func TestGoldenShard(t *testing.T) {
 	// SHA-256 here under the new number.
 	formats := map[int]string{
 		1: "13133acd9e72cfcf0754d8adc89496a2583f08381285fa838aae4e642c00d916",
+		// Batches of 8 rows instead of 64: larger shards cut their pages at other
+		// rows, but this one's pages are its row groups, so its bytes are unchanged.
+		2: "13133acd9e72cfcf0754d8adc89496a2583f08381285fa838aae4e642c00d916",
 	}
 	if sum := sha256.Sum256(got); formats[writerFormat] != hex.EncodeToString(sum[:]) {
 		t.Errorf("writerFormat %d is not the format of these shard bytes (sha256 %x): add a new writerFormat", writerFormat, sum)
