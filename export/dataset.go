@@ -184,12 +184,12 @@ func (w *datasetWriter) closeShard(s *splitStream) {
 //
 // A shard that the interrupted run of the same config completed (the file intact,
 // its batches in the journal, written by a build and options of the same identity)
-// is not encoded while this run's batches have the
-// digests of that run's, in order: if all of them do, the file on disk is kept and
-// reused is true, since shard bytes follow from their batches alone. Where they
-// part, the batches before are read back from the file and encoded again, and the
-// shard is written as any other. A shard recorded without batches is encoded and
-// kept when the bytes come out the same.
+// is not encoded while this run's batches have the digests of that run's, in
+// order: if all of them do, the file on disk is kept and reused is true, since
+// shard bytes follow from their batches alone. Where they part, the batches before
+// are read back from the file and encoded again, and the shard is written as any
+// other. Any other shard of the journal is encoded and kept when the bytes come
+// out the same.
 func (w *datasetWriter) encode(rel, split string, batches <-chan rowBatch, opt ShardOptions) (sh Shard, reused bool, err error) {
 	p := filepath.Join(w.dir, filepath.FromSlash(rel))
 	sh = Shard{Path: rel, Split: split}
