@@ -88,3 +88,27 @@ func TestWriterIdentity(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkBatchDigest digests a batch of writeBatch windows of 2048 tokens, as an
+// export does for every batch it hands to a shard's encoder.
+func BenchmarkBatchDigest(b *testing.B) {
+	rows := make([]Row, writeBatch)
+	size := int64(0)
+	for i := range rows {
+		r := &rows[i]
+		for j := range 2048 {
+			r.Tokens = append(r.Tokens, int32(j%300))
+			r.Time = append(r.Time, int32(j*10))
+			r.Pitch = append(r.Pitch, int16(j%128))
+			r.Inst = append(r.Inst, int16(j%7))
+		}
+		r.Piece, r.Dataset, r.Source, r.ContentHash, r.Split = "d:a.mid#0", "d", "a.mid", "0123456789abcdef", SplitTrain
+		size += r.payloadBytes()
+	}
+	d := newBatchDigester()
+	b.SetBytes(size)
+	b.ReportAllocs()
+	for b.Loop() {
+		d.digest(rows, false)
+	}
+}
