@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"archive/tar"
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
@@ -437,7 +438,8 @@ func TestScanOpenMSX(t *testing.T) {
 }
 
 // TestScanBoundedInFlight: while yield is blocked, workers process at most the in-flight
-// bound (Options.Window per worker) of files ahead of it, so the reorder buffer stays bounded.
+// bound (Options.Window per worker) of files ahead of it, so the reorder buffer stays
+// bounded, for the default window and a smaller one.
 func TestScanBoundedInFlight(t *testing.T) {
 	dir := filepath.Join(t.TempDir(), "many")
 	files := map[string][]byte{}
@@ -450,20 +452,26 @@ func TestScanBoundedInFlight(t *testing.T) {
 	scanProcessedHook.Store(&hook)
 	defer scanProcessedHook.Store(nil)
 	const workers = 2
-	var ahead int64
-	n := 0
-	err := Scan(context.Background(), []Source{{Path: dir}}, mixedOptions(workers), func(*Result) error {
-		if n == 0 {
-			time.Sleep(300 * time.Millisecond) // let the workers run as far ahead as they may
-			ahead = processed.Load()
+	for _, window := range []int{0, 3} {
+		opts := mixedOptions(workers)
+		opts.Window = window
+		bound := int64(cmp.Or(window, DefaultWindow) * workers)
+		processed.Store(0)
+		var ahead int64
+		n := 0
+		err := Scan(context.Background(), []Source{{Path: dir}}, opts, func(*Result) error {
+			if n == 0 {
+				time.Sleep(300 * time.Millisecond) // let the workers run as far ahead as they may
+				ahead = processed.Load()
+			}
+			n++
+			return nil
+		})
+		if err != nil || n != 100 {
+			t.Fatalf("window %d: Scan: %v, %d results", window, err, n)
 		}
-		n++
-		return nil
-	})
-	if err != nil || n != 100 {
-		t.Fatalf("Scan: %v, %d results", err, n)
-	}
-	if ahead > DefaultWindow*workers || ahead < 2 {
-		t.Errorf("%d files processed while the first result waited, want 2 to %d", ahead, DefaultWindow*workers)
+		if ahead > bound || ahead < 2 {
+			t.Errorf("window %d: %d files processed while the first result waited, want 2 to %d", window, ahead, bound)
+		}
 	}
 }
