@@ -229,12 +229,8 @@ var shardLibraries = []string{"github.com/parquet-go/parquet-go", "github.com/kl
 // rows: the options, writerFormat and the versions of shardLibraries in this build.
 func (opt ShardOptions) identity() string {
 	h := sha256.New()
-	name := opt.Compression
-	if name == "" {
-		name = CompressionZstd
-	}
 	fmt.Fprintf(h, "relshard shard writer %d\ncompression %q\nrow group %d\ncreated by %q\n",
-		writerFormat, name, opt.rowGroupBytes(), opt.CreatedBy)
+		writerFormat, opt.compression(), opt.rowGroupBytes(), opt.CreatedBy)
 	for _, k := range slices.Sorted(maps.Keys(opt.Metadata)) {
 		fmt.Fprintf(h, "metadata %q %q\n", k, opt.Metadata[k])
 	}
@@ -249,6 +245,14 @@ func (opt ShardOptions) identity() string {
 		}
 	}
 	return hex.EncodeToString(h.Sum(nil)[:16])
+}
+
+// compression is the compression in effect.
+func (opt ShardOptions) compression() string {
+	if opt.Compression == "" {
+		return CompressionZstd
+	}
+	return opt.Compression
 }
 
 // rowGroupBytes is the row-group target in effect.
@@ -270,10 +274,7 @@ type shardEncoder struct {
 }
 
 func newShardEncoder(w io.Writer, opt ShardOptions) (*shardEncoder, error) {
-	name := opt.Compression
-	if name == "" {
-		name = CompressionZstd
-	}
+	name := opt.compression()
 	codec, ok := codecs[name]
 	if !ok {
 		return nil, fmt.Errorf("unknown compression %q (want zstd, snappy or none)", name)
